@@ -1,0 +1,250 @@
+"""Pairwise distances: one registry of models over one counting engine.
+
+:func:`distance_matrix` packs the site patterns once, counts every pair in
+compiled blocks (:mod:`.counts`), and applies the model's formula
+(:mod:`.nucleotide`, :mod:`.protein`) to the counts of a block at a time.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+from ..errors import InputError, SaturationError
+from ..kernels import counts as kc
+from ..kernels.counts import mirror_upper
+from ..matrix import DistanceMatrix
+from . import nucleotide as nuc
+from . import protein as prot
+from .counts import iter_count_blocks, pack, state_frequencies
+
+__all__ = ["distance_matrix", "MODELS", "Model"]
+
+
+@dataclass(frozen=True)
+class Model:
+    name: str
+    alphabet: str            # "dna" or "protein"
+    formula: Callable
+    counts: int              # which pair counts the formula needs (kernels.counts constants)
+    uses_freqs: bool
+    gamma: bool
+    summary: str
+    citation: str
+
+
+MODELS = {m.name: m for m in [
+    Model("p", "dna", nuc.p_distance, kc.IDENTITY, False, False,
+          "proportion of differing sites, uncorrected", "Jukes & Cantor 1969"),
+    Model("jc69", "dna", nuc.jc69, kc.IDENTITY, False, True,
+          "equal rates and base frequencies", "Jukes & Cantor 1969; gamma: Jin & Nei 1990"),
+    Model("k2p", "dna", nuc.k2p, kc.TRANSITIONS, False, True,
+          "transitions and transversions at different rates", "Kimura 1980; gamma: Jin & Nei 1990"),
+    Model("f81", "dna", nuc.f81, kc.IDENTITY, True, True,
+          "equal rates, unequal base frequencies", "Felsenstein 1981"),
+    Model("f84", "dna", nuc.f84, kc.TRANSITIONS, True, False,
+          "transition bias and unequal base frequencies", "Felsenstein & Churchill 1996"),
+    Model("t92", "dna", nuc.t92, kc.TRANSITIONS, True, False,
+          "transition bias and G+C content bias", "Tamura 1992"),
+    Model("tn93", "dna", nuc.tn93, kc.TRANSITIONS, True, True,
+          "two transition rates, unequal base frequencies", "Tamura & Nei 1993"),
+    Model("logdet", "dna", nuc.logdet, kc.FULL, False, False,
+          "robust to base composition differing between lineages", "Lockhart, Steel, Hendy & Penny 1994"),
+    Model("paralinear", "dna", nuc.paralinear, kc.FULL, False, False,
+          "LogDet scaled by each sequence's composition", "Lake 1994"),
+    Model("protein-p", "protein", nuc.p_distance, kc.IDENTITY, False, False,
+          "proportion of differing residues, uncorrected", "common practice"),
+    Model("poisson", "protein", prot.poisson, kc.IDENTITY, False, True,
+          "equal rates among amino acids", "Zuckerkandl & Pauling 1965"),
+    Model("kimura", "protein", prot.kimura_protein, kc.IDENTITY, False, False,
+          "Kimura's approximation for protein", "Kimura 1983"),
+]}
+
+GAP_MODES = ("pairwise", "complete")
+FREQ_MODES = ("alignment", "pair")
+SATURATED_MODES = ("error", "cap")
+MAX_LISTED = 10
+
+
+def resolve_model(model, alphabet, source=None):
+    """The :class:`Model` for a name, checked against the data's alphabet.
+
+    ``p`` means the protein p-distance on protein data.
+    """
+    key = str(model).lower()
+    if key == "p" and alphabet == "protein":
+        key = "protein-p"
+    if key not in MODELS:
+        names = ", ".join(n for n in MODELS if n != "protein-p")
+        raise InputError(f"unknown model {model!r}; choose one of {names}", source=source)
+    spec = MODELS[key]
+    if spec.alphabet != alphabet:
+        fit = ", ".join(n if n != "protein-p" else "p" for n, m in MODELS.items() if m.alphabet == alphabet)
+        raise InputError(f"model {model!r} is for {spec.alphabet} but the alignment is {alphabet}; "
+                         f"choose one of {fit} (or --alphabet if the alphabet was misdetected)", source=source)
+    return spec
+
+
+def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="alignment", *,
+                    saturated="error", weights=None, dtype=np.float64):
+    """All pairwise distances of an alignment under a substitution model.
+
+    Parameters
+    ----------
+    alignment : Alignment
+    model : str
+        One of :data:`MODELS` (``p``, ``jc69``, ``k2p``, ``f81``, ``f84``,
+        ``t92``, ``tn93``, ``logdet``, ``paralinear``; protein ``p``,
+        ``poisson``, ``kimura``).
+    gamma : float, optional
+        Shape alpha > 0 of the gamma distribution of rates across sites, for
+        jc69, k2p, f81, tn93 and poisson.
+    gaps : {"pairwise", "complete"}
+        ``pairwise``: each pair uses the sites where both sequences are
+        unambiguous; ``complete``: only the sites unambiguous in every sequence.
+    freqs : {"alignment", "pair"}
+        Base frequencies for f81, f84, t92 and tn93: from every unambiguous
+        state of the sites in use, or from the two sequences compared.
+    saturated : {"error", "cap"}
+        What to do with pairs whose distance is undefined (a logarithm's
+        argument <= 0): stop with an error naming them, or replace them with
+        a cap, twice the largest defined distance (at least 1), and count them
+        in ``info["saturated"]``.
+    weights : int array (S,), optional
+        A weight per site pattern (a bootstrap replicate); default: the
+        pattern counts of the alignment.
+    dtype : numpy dtype
+        float64, or float32 to halve the memory of very large matrices.
+
+    Returns
+    -------
+    DistanceMatrix
+
+    References
+    ----------
+    See :mod:`cladewright.distances.nucleotide` and :mod:`.protein` for each formula.
+
+    Examples
+    --------
+    >>> from cladewright.alignment import Alignment, encode
+    >>> aln = Alignment(["a", "b"], encode(["a", "b"], ["ACGTACGTAC", "ACGTACGTAA"], "dna", "x"), "dna")
+    >>> round(float(distance_matrix(aln, "p").values[0, 1]), 3)
+    0.1
+    """
+    src = alignment.source
+    spec = resolve_model(model, alignment.alphabet, src)
+    if gamma is not None:
+        if not spec.gamma:
+            with_gamma = ", ".join(n for n, m in MODELS.items() if m.gamma)
+            raise InputError(f"model {spec.name} has no gamma form; drop --gamma or choose one of {with_gamma}",
+                             source=src)
+        if not (np.isfinite(gamma) and gamma > 0):
+            raise InputError(f"gamma shape {gamma!r} must be a positive number (e.g. 0.5)", source=src)
+    if gaps not in GAP_MODES:
+        raise InputError(f"unknown gap mode {gaps!r}; choose pairwise or complete", source=src)
+    if freqs not in FREQ_MODES:
+        raise InputError(f"unknown base-frequency source {freqs!r}; choose alignment or pair", source=src)
+    if saturated not in SATURATED_MODES:
+        raise InputError(f"unknown saturation rule {saturated!r}; choose error or cap", source=src)
+    n = alignment.n_taxa
+    if n < 2:
+        raise InputError(f"{n} sequence(s); distances need at least two", source=src)
+
+    k = alignment.n_states
+    patterns = alignment.patterns
+    weights = alignment.weights if weights is None else np.asarray(weights, dtype=np.int64)
+    use = None
+    if gaps == "complete":
+        use = np.all(patterns < k, axis=0)
+        if not np.any(use & (weights > 0)):
+            raise InputError("no site is unambiguous in every sequence, so complete deletion leaves nothing; "
+                             "use --gaps pairwise", source=src)
+
+    kind = spec.counts
+    pi = None
+    if spec.uses_freqs:
+        if freqs == "pair":
+            kind = kc.COMPOSITION
+        else:
+            pi = state_frequencies(patterns, weights, k, use)
+            _check_frequencies(spec, pi, src)
+    packed = pack(patterns, weights, k, use)
+    values = np.zeros((n, n), dtype=dtype)
+    undefined, empty = [], []
+    n_undefined = 0
+    with np.errstate(all="ignore"):
+        for r0, r1, block in iter_count_blocks(packed, kind):
+            rows = np.arange(r0, r1)[:, None]
+            upper = np.arange(n)[None, :] > rows
+            c = _count_dict(block[upper], kind)
+            pair_pi = pi
+            if kind == kc.COMPOSITION:
+                pair_pi = (c["comp_i"] + c["comp_j"]) / (2.0 * c["shared"][:, None])
+            d = spec.formula(c, pair_pi, gamma)
+            no_sites = c["shared"] == 0
+            if no_sites.any():
+                empty.extend(_pairs_at(upper, no_sites, r0, 1))
+                break
+            bad = ~np.isfinite(d)
+            if bad.any():
+                n_undefined += int(bad.sum())
+                if len(undefined) < MAX_LISTED:
+                    undefined.extend(_pairs_at(upper, bad, r0, MAX_LISTED - len(undefined)))
+            values[r0:r1][upper] = d
+    names = alignment.names
+    if empty:
+        i, j = empty[0]
+        raise InputError(f"sequences {names[i]!r} and {names[j]!r} share no unambiguous site, so their "
+                         "distance is undefined; remove one of them or trim the alignment", source=src)
+    info = {"model": spec.name, "gamma": gamma, "gaps": gaps, "freqs": freqs if spec.uses_freqs else None,
+            "sites_used": int(packed.n_sites), "saturated": 0, "cap": None}
+    if n_undefined:
+        listed = "; ".join(f"{names[i]}-{names[j]}" for i, j in undefined)
+        more = f" and {n_undefined - len(undefined)} more" if n_undefined > len(undefined) else ""
+        if saturated == "error":
+            raise SaturationError(
+                f"model {spec.name}: distance undefined (saturated: a logarithm's argument <= 0) for "
+                f"{n_undefined} pair(s): {listed}{more}; choose a model that saturates later (e.g. p) or pass "
+                "--saturated cap to set them to a cap and go on", undefined, source=src)
+        finite = values[np.isfinite(values)]
+        cap = max(1.0, 2.0 * float(finite.max()) if finite.size else 1.0)
+        values[~np.isfinite(values)] = cap
+        info.update(saturated=n_undefined, cap=cap, saturated_pairs=[(names[i], names[j]) for i, j in undefined])
+    mirror_upper(values)
+    return DistanceMatrix(names, values, validate=False, dtype=dtype, info=info)
+
+
+def _count_dict(flat, kind):
+    """Name the columns of a (m, n_counts) count array."""
+    if kind == kc.FULL:
+        full = flat.reshape(-1, 4, 4)
+        shared = full.sum(axis=(1, 2))
+        same = np.trace(full, axis1=1, axis2=2)
+        return {"shared": shared, "same": same, "full": full,
+                "ag": full[:, 0, 2] + full[:, 2, 0], "ct": full[:, 1, 3] + full[:, 3, 1]}
+    c = {"shared": flat[:, 0], "same": flat[:, 1]}
+    if kind in (kc.TRANSITIONS, kc.COMPOSITION):
+        c["ag"], c["ct"] = flat[:, 2], flat[:, 3]
+    if kind == kc.COMPOSITION:
+        c["comp_i"], c["comp_j"] = flat[:, 4:8], flat[:, 8:12]
+    return c
+
+
+def _pairs_at(upper, flags, r0, limit):
+    """(i, j) of the first ``limit`` flagged entries of a block's upper mask."""
+    rr, cc = np.nonzero(upper)
+    hit = np.flatnonzero(flags)[:limit]
+    return [(int(rr[h]) + r0, int(cc[h])) for h in hit]
+
+
+def _check_frequencies(spec, pi, source):
+    if not np.all(np.isfinite(pi)):
+        raise InputError("no unambiguous base to estimate base frequencies from; check the alignment",
+                         source=source)
+    need_all = spec.name in ("tn93", "f84")
+    if need_all and np.any(pi <= 0):
+        absent = "ACGT"[int(np.flatnonzero(pi <= 0)[0])]
+        raise InputError(f"base {absent} never occurs, so model {spec.name} is undefined; choose k2p or jc69",
+                         source=source)

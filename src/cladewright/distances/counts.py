@@ -1,0 +1,99 @@
+"""Pair counts for all pairs at once, from weighted site patterns.
+
+The patterns in use (all for pairwise deletion, the fully unambiguous ones
+for complete deletion) are packed into bit planes, grouped by weight so that
+each 64-bit word carries one weight; a bootstrap replicate is just another
+weight vector over the same patterns. The compiled kernel then counts, for
+a block of rows at a time, shared sites, identical sites and whichever
+differences the model needs.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..kernels import counts as kc
+
+__all__ = ["PackedPatterns", "pack", "iter_count_blocks", "state_frequencies"]
+
+# Bytes of count array per block of rows: bounds the working memory beside
+# the output matrix.
+BLOCK_BYTES = 48 * 2**20
+
+
+class PackedPatterns:
+    """Bit planes of the patterns in use and one weight per word."""
+
+    __slots__ = ("planes", "valid", "word_weight", "n_sites")
+
+    def __init__(self, planes, valid, word_weight, n_sites):
+        self.planes = planes
+        self.valid = valid
+        self.word_weight = word_weight
+        self.n_sites = n_sites
+
+
+def pack(patterns, weights, n_states, use=None):
+    """Pack the patterns with nonzero weight (and ``use`` True) into planes.
+
+    Parameters
+    ----------
+    patterns : uint8 array (n, S)
+    weights : int array (S,)
+        How many times each pattern is counted (site counts, or a bootstrap
+        replicate's multinomial draw).
+    n_states : int
+        4 for DNA, 20 for protein; states >= n_states are not counted.
+    use : bool array (S,), optional
+        Patterns to keep (complete deletion keeps only the fully unambiguous ones).
+    """
+    weights = np.asarray(weights, dtype=np.int64)
+    keep = weights > 0
+    if use is not None:
+        keep &= use
+    idx = np.flatnonzero(keep)
+    w = weights[idx]
+    # Group by weight: sort by weight, start each group on a fresh word.
+    order = idx[np.argsort(w, kind="stable")]
+    w_sorted = weights[order]
+    values, starts, sizes = np.unique(w_sorted, return_index=True, return_counts=True)
+    group_words = (sizes + 63) // 64
+    first_word = np.concatenate(([0], np.cumsum(group_words)[:-1])).astype(np.int64)
+    n_words = int(group_words.sum())
+    rank_in_group = np.arange(order.size) - np.repeat(starts, sizes)
+    word_of = np.repeat(first_word, sizes) + rank_in_group // 64
+    bit_of = (rank_in_group % 64).astype(np.int64)
+    word_weight = np.repeat(values, group_words).astype(np.int64)
+    planes, valid = kc.pack_planes(np.ascontiguousarray(patterns), order.astype(np.int64),
+                                   word_of.astype(np.int64), bit_of, max(n_words, 0), n_states)
+    return PackedPatterns(planes, valid, word_weight, int(w.sum()))
+
+
+def iter_count_blocks(packed, kind):
+    """Yield ``(r0, r1, counts)`` for blocks of rows; ``counts[i - r0, j]``
+    holds the pair counts for j > i (other entries are undefined)."""
+    n = packed.planes.shape[0]
+    n_counts = kc.N_COUNTS[kind]
+    rows = max(1, min(n, BLOCK_BYTES // max(1, n * n_counts * 8)))
+    buf = np.zeros((rows, n, n_counts), dtype=np.int64)
+    for r0 in range(0, n, rows):
+        r1 = min(n, r0 + rows)
+        kc.pair_counts(packed.planes, packed.valid, packed.word_weight, r0, r1, kind, buf)
+        yield r0, r1, buf[: r1 - r0]
+
+
+def state_frequencies(patterns, weights, n_states, use=None):
+    """Frequencies of the unambiguous states over the patterns in use,
+    weighted, pooled over all sequences."""
+    weights = np.asarray(weights, dtype=np.int64)
+    if use is not None:
+        weights = np.where(use, weights, 0)
+    counts = np.zeros(n_states + 2, dtype=np.int64)
+    # One bincount per state code keeps this O(n S) without a loop over sites.
+    flat_states = patterns.reshape(-1)
+    flat_weights = np.broadcast_to(weights, patterns.shape).reshape(-1)
+    counts += np.bincount(flat_states, weights=flat_weights, minlength=n_states + 2)[: n_states + 2].astype(np.int64)
+    total = counts[:n_states].sum()
+    if total == 0:
+        return np.full(n_states, np.nan)
+    return counts[:n_states] / total

@@ -1,0 +1,156 @@
+r"""Nucleotide distance formulas on arrays of pair counts.
+
+Every formula shares one signature, ``f(c, pi, gamma) -> d``: ``c`` holds
+count arrays over m pairs (``shared``, ``same``, ``ag``, ``ct`` and, where the
+model needs them, ``full`` (m, 4, 4)); ``pi`` the base frequencies A, C, G, T,
+shape (4,) or (m, 4); ``gamma`` the shape alpha of the gamma distribution of
+rates across sites, or None. Where a logarithm's argument is <= 0 the
+distance is undefined and returned as NaN; the caller reports it.
+
+With P the proportion of transitions (P1: A<->G, P2: C<->T), Q of
+transversions and p of differences, over the shared sites:
+
+- p:      d = p
+- JC69:   d = -3/4 ln(1 - 4p/3)                         (Jukes & Cantor 1969)
+          gamma: d = 3/4 a [(1 - 4p/3)^(-1/a) - 1]     (Jin & Nei 1990)
+- F81:    d = -B ln(1 - p/B), B = 1 - sum pi^2          (Felsenstein 1981)
+          gamma: d = B a [(1 - p/B)^(-1/a) - 1]
+- K2P:    d = -1/2 ln(1 - 2P - Q) - 1/4 ln(1 - 2Q)     (Kimura 1980)
+          gamma: d = a/2 [(1-2P-Q)^(-1/a) + 1/2 (1-2Q)^(-1/a) - 3/2]  (Jin & Nei 1990)
+- F84:    d = -2A ln(1 - P/(2A) - (A-B)Q/(2AC)) + 2(A-B-C) ln(1 - Q/(2C)),
+          A = pi_A pi_G/pi_R + pi_C pi_T/pi_Y, B = pi_A pi_G + pi_C pi_T,
+          C = pi_R pi_Y                                  (Felsenstein & Churchill 1996)
+- T92:    d = -h ln(1 - P/h - Q) - 1/2 (1 - h) ln(1 - 2Q), h = 2 theta (1 - theta),
+          theta the G+C content                          (Tamura 1992)
+- TN93:   d = -2 pi_A pi_G/pi_R ln w1 - 2 pi_C pi_T/pi_Y ln w2
+              - 2 (pi_R pi_Y - pi_A pi_G pi_Y/pi_R - pi_C pi_T pi_R/pi_Y) ln w3,
+          w1 = 1 - pi_R P1/(2 pi_A pi_G) - Q/(2 pi_R), w2 = 1 - pi_Y P2/(2 pi_C pi_T) - Q/(2 pi_Y),
+          w3 = 1 - Q/(2 pi_R pi_Y); gamma: -ln w -> a (w^(-1/a) - 1) in each term
+                                                         (Tamura & Nei 1993)
+- LogDet: d = -1/4 ln det F - ln 4, F the 4 x 4 table of pair proportions
+                                                         (Lockhart, Steel, Hendy & Penny 1994)
+- paralinear: d = -1/4 [ln det F - 1/2 (ln det Pi_x + ln det Pi_y)], Pi the
+          diagonal matrices of the two sequences' base proportions   (Lake 1994)
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["p_distance", "jc69", "f81", "k2p", "f84", "t92", "tn93", "logdet", "paralinear"]
+
+
+def _neglog(w, gamma):
+    """-ln w, or its gamma form a (w^(-1/a) - 1); NaN where w <= 0."""
+    w = np.where(w > 0, w, np.nan)
+    if gamma is None:
+        return -np.log(w)
+    return gamma * (np.power(w, -1.0 / gamma) - 1.0)
+
+
+def _proportions(c):
+    shared = c["shared"].astype(np.float64)
+    p = (shared - c["same"]) / shared
+    if "ag" not in c:
+        return shared, p, None, None, None
+    p1 = c["ag"] / shared
+    p2 = c["ct"] / shared
+    q = p - p1 - p2
+    return shared, p, p1, p2, q
+
+
+def _bases(pi):
+    pi = np.asarray(pi, dtype=np.float64)
+    return pi[..., 0], pi[..., 1], pi[..., 2], pi[..., 3]
+
+
+def p_distance(c, pi=None, gamma=None):
+    """Proportion of differing sites among the shared ones."""
+    return _proportions(c)[1]
+
+
+def _equal_input(p, b, gamma):
+    return b * _neglog(1.0 - p / b, gamma)
+
+
+def jc69(c, pi=None, gamma=None):
+    """JC69 (Jukes & Cantor 1969); gamma form of Jin & Nei (1990)."""
+    return _equal_input(_proportions(c)[1], 0.75, gamma)
+
+
+def f81(c, pi, gamma=None):
+    """F81 (Felsenstein 1981): the equal-input correction with B = 1 - sum pi^2."""
+    b = 1.0 - np.sum(np.asarray(pi, dtype=np.float64) ** 2, axis=-1)
+    return _equal_input(_proportions(c)[1], b, gamma)
+
+
+def k2p(c, pi=None, gamma=None):
+    """K2P (Kimura 1980); gamma form of Jin & Nei (1990)."""
+    _, _, p1, p2, q = _proportions(c)
+    ts = p1 + p2
+    w1 = 1.0 - 2.0 * ts - q
+    w2 = 1.0 - 2.0 * q
+    return 0.5 * _neglog(w1, gamma) + 0.25 * _neglog(w2, gamma)
+
+
+def f84(c, pi, gamma=None):
+    """F84 (Felsenstein & Churchill 1996, the model of 1984)."""
+    _, _, p1, p2, q = _proportions(c)
+    ts = p1 + p2
+    a_, c_, g_, t_ = _bases(pi)
+    pr, py = a_ + g_, c_ + t_
+    big_a = a_ * g_ / pr + c_ * t_ / py
+    big_b = a_ * g_ + c_ * t_
+    big_c = pr * py
+    w1 = 1.0 - ts / (2.0 * big_a) - (big_a - big_b) * q / (2.0 * big_a * big_c)
+    w2 = 1.0 - q / (2.0 * big_c)
+    return 2.0 * big_a * _neglog(w1, None) - 2.0 * (big_a - big_b - big_c) * _neglog(w2, None)
+
+
+def t92(c, pi, gamma=None):
+    """T92 (Tamura 1992), theta the G+C content of ``pi``."""
+    _, _, p1, p2, q = _proportions(c)
+    ts = p1 + p2
+    _, c_, g_, _ = _bases(pi)
+    theta = c_ + g_
+    h = 2.0 * theta * (1.0 - theta)
+    return h * _neglog(1.0 - ts / h - q, None) + 0.5 * (1.0 - h) * _neglog(1.0 - 2.0 * q, None)
+
+
+def tn93(c, pi, gamma=None):
+    """TN93 (Tamura & Nei 1993), with its gamma form."""
+    _, _, p1, p2, q = _proportions(c)
+    a_, c_, g_, t_ = _bases(pi)
+    pr, py = a_ + g_, c_ + t_
+    w1 = 1.0 - pr * p1 / (2.0 * a_ * g_) - q / (2.0 * pr)
+    w2 = 1.0 - py * p2 / (2.0 * c_ * t_) - q / (2.0 * py)
+    w3 = 1.0 - q / (2.0 * pr * py)
+    k3 = pr * py - a_ * g_ * py / pr - c_ * t_ * pr / py
+    return (2.0 * a_ * g_ / pr * _neglog(w1, gamma) + 2.0 * c_ * t_ / py * _neglog(w2, gamma)
+            + 2.0 * k3 * _neglog(w3, gamma))
+
+
+def _logdet_parts(c):
+    full = c["full"].astype(np.float64)
+    total = full.sum(axis=(1, 2))
+    f = full / total[:, None, None]
+    sign, logabsdet = np.linalg.slogdet(f)
+    logabsdet = np.where(sign > 0, logabsdet, np.nan)
+    return f, logabsdet
+
+
+def logdet(c, pi=None, gamma=None):
+    """LogDet (Lockhart et al. 1994): zero for identical sequences with equal base frequencies."""
+    _, ld = _logdet_parts(c)
+    return -0.25 * ld - np.log(4.0)
+
+
+def paralinear(c, pi=None, gamma=None):
+    """Paralinear distance (Lake 1994)."""
+    f, ld = _logdet_parts(c)
+    rows = f.sum(axis=2)
+    cols = f.sum(axis=1)
+    with np.errstate(divide="ignore"):
+        diag = np.log(rows).sum(axis=1) + np.log(cols).sum(axis=1)
+    diag = np.where(np.isfinite(diag), diag, np.nan)
+    return -0.25 * (ld - 0.5 * diag)

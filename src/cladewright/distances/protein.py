@@ -1,0 +1,29 @@
+r"""Protein distance formulas on arrays of pair counts (shared signature
+``f(c, pi, gamma) -> d``, as in :mod:`cladewright.distances.nucleotide`).
+
+With p the proportion of differing residues among the shared sites:
+
+- p:       d = p
+- Poisson: d = -ln(1 - p)                      (Zuckerkandl & Pauling 1965)
+           gamma: d = a [(1 - p)^(-1/a) - 1]
+- Kimura:  d = -ln(1 - p - p^2 / 5)            (Kimura 1983, The Neutral Theory of Molecular Evolution)
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .nucleotide import _neglog, _proportions
+
+__all__ = ["poisson", "kimura_protein"]
+
+
+def poisson(c, pi=None, gamma=None):
+    """Poisson correction (Zuckerkandl & Pauling 1965), with its gamma form."""
+    return _neglog(1.0 - _proportions(c)[1], gamma)
+
+
+def kimura_protein(c, pi=None, gamma=None):
+    """Kimura's (1983) approximation to the PAM correction."""
+    p = _proportions(c)[1]
+    return _neglog(1.0 - p - 0.2 * p * p, None)
