@@ -8,6 +8,7 @@ import sys
 import time
 
 import click
+import numpy as np
 
 from . import __version__
 from .distances import MODELS
@@ -132,6 +133,197 @@ def distance_summary(aln, dm, seconds):
         lines.append(f"warning   {info['saturated']} saturated pair(s) set to {info['cap']:.6g}")
     lines.append(f"time      {seconds:.2f} s")
     return "\n".join(lines)
+
+
+def tree_output_options(func):
+    """Options shared by every command that writes trees."""
+    options = [
+        click.option("--format", "fmt", type=click.Choice(["newick", "nexus"]), default=None,
+                     help="Output format; default from the suffix of OUT (.nex, .nexus: NEXUS; else Newick)."),
+        click.option("--digits", type=click.IntRange(1, 17), default=None,
+                     help="Significant digits of branch lengths (default: full round-trip precision)."),
+        click.option("--support-digits", type=click.IntRange(0, 6), default=0, show_default=True,
+                     help="Decimals of support percentages."),
+    ]
+    for option in reversed(options):
+        func = option(func)
+    return func
+
+
+def output_format(output, fmt):
+    if fmt:
+        return fmt
+    return "nexus" if str(output).lower().endswith((".nex", ".nexus", ".nxs")) else "newick"
+
+
+def write_tree(tree, output, fmt, digits, support_digits):
+    tree.write(output, format=output_format(output, fmt), digits=digits, support_digits=support_digits)
+
+
+def read_input(path, alphabet):
+    """An alignment, or a labelled distance matrix (a TSV whose first cell is empty)."""
+    from .alignment import read_alignment
+    from .io.files import read_text
+    from .matrix import read_distance_matrix
+
+    text = read_text(path)
+    source = "<stdin>" if path == "-" else path
+    if text.startswith("\t"):
+        return None, read_distance_matrix(source, text=text)
+    return read_alignment(path, alphabet=alphabet, text=text), None
+
+
+@main.command(epilog=MODEL_HELP)
+@click.argument("input_path", metavar="INPUT")
+@click.option("--output", "-o", required=True, metavar="OUT", help="Tree file to write ('-': stdout).")
+@click.option("--method", type=click.Choice(["nj", "bionj", "upgma", "wpgma", "single", "complete"]),
+              default="nj", show_default=True, help="Tree-building method.")
+@model_options
+@click.option("--negative", type=click.Choice(["zero", "keep"]), default="zero", show_default=True,
+              help="Negative NJ/BIONJ branch lengths: set to zero, or keep as computed.")
+@click.option("--root", "root_spec", default=None, metavar="midpoint|TAXON[,TAXON]",
+              help="Root the tree at its midpoint or on the branch to an outgroup.")
+@click.option("--replicates", "-b", type=click.IntRange(0, None), default=0, show_default=True,
+              help="Bootstrap replicates (0: no support).")
+@click.option("--seed", type=click.IntRange(0, None), default=None, help="Seed of the bootstrap (drawn if not given).")
+@click.option("--workers", type=click.IntRange(1, None), default=None, help="Local worker processes (default: cores).")
+@click.option("--support", "measure", type=click.Choice(["fbp", "tbe"]), default="fbp", show_default=True,
+              help="Felsenstein bootstrap proportion or transfer bootstrap expectation.")
+@click.option("--save-replicates", type=click.Path(dir_okay=False), default=None,
+              help="Append each replicate tree to this file, one Newick line each.")
+@click.option("--resume", is_flag=True, help="Continue --save-replicates FILE after an interruption.")
+@click.option("--scheduler", default=None, metavar="ADDRESS", help="Run replicates on this Dask scheduler.")
+@click.option("--report", "report_path", type=click.Path(dir_okay=False), default=None,
+              help="Also write a self-contained HTML report of the run.")
+@tree_output_options
+@click.pass_obj
+@guarded
+def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, alphabet, negative, root_spec,
+         replicates, seed, workers, measure, save_replicates, resume, scheduler, report_path, fmt, digits,
+         support_digits):
+    """Build a tree from INPUT: an alignment (FASTA or NEXUS) or a labelled distance matrix (TSV)."""
+    from .build import build_tree_with_info
+    from .distances import distance_matrix
+
+    check_output_not_input(output, input_path, save_replicates)
+    check_output_not_input(report_path, input_path, save_replicates)
+    start = time.perf_counter()
+    aln, dm = read_input(input_path, alphabet)
+    boot = None
+    if replicates:
+        if aln is None:
+            raise InputError("bootstrap support needs an alignment, not a distance matrix; give the alignment "
+                             "or drop --replicates", source=input_path)
+        from .support.resample import bootstrap
+
+        boot = bootstrap(aln, replicates, model=model, method=method, gamma=gamma, gaps=gaps, freqs=freqs,
+                         saturated=saturated, negative=negative, seed=seed, workers=workers, support=measure,
+                         save_replicates=save_replicates, resume=resume, scheduler=scheduler,
+                         progress=not obj.quiet)
+        result, info = boot.tree, boot.info
+        dm = None
+    else:
+        if dm is None:
+            dm = distance_matrix(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated)
+        result, info = build_tree_with_info(dm, method, negative, source=input_path)
+        info.update(dm.info)
+    if root_spec:
+        from .rooting import root_tree
+
+        result = root_tree(result, root_spec)
+    write_tree(result, output, fmt, digits, support_digits)
+    seconds = time.perf_counter() - start
+    summary = tree_summary(aln, dm, info, boot, seconds)
+    if report_path:
+        from .distances import distance_matrix as _dm
+        from .report import write_report
+
+        full_dm = dm if dm is not None else _dm(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs,
+                                                saturated=saturated)
+        write_report(report_path, alignment=aln, dm=full_dm, tree=result, info=info,
+                     command_line=" ".join(["cladewright"] + sys.argv[1:]), warnings=run_warnings(aln, info),
+                     support_values=result.support)
+    obj.say(summary)
+
+
+def run_warnings(aln, info):
+    """Warnings a user should see: saturated pairs, negative lengths, sequences with little data."""
+    out = []
+    if info.get("saturated"):
+        out.append(f"{info['saturated']} saturated pair(s) set to {info['cap']:.6g}")
+    if info.get("negative_branches"):
+        out.append(f"{info['negative_branches']} negative branch length(s) "
+                   + ("kept as computed" if info.get("negative") == "keep" else "set to zero"))
+    if aln is not None and aln.n_sites:
+        name, frac = aln.summary()["least_data"]
+        if frac < 0.5:
+            out.append(f"sequence {name!r} has unambiguous states at only {100 * frac:.0f}% of sites")
+    return out
+
+
+def tree_summary(aln, dm, info, boot, seconds):
+    lines = []
+    if aln is not None:
+        lines.append(f"taxa      {aln.n_taxa}")
+        lines.append(f"sites     {aln.n_sites} ({aln.n_patterns} distinct patterns, gaps {info.get('gaps')})")
+        model = info.get("model", "")
+        lines.append(f"model     {model}" + (f" + gamma (alpha {info['gamma']:g})" if info.get("gamma") else ""))
+    else:
+        lines.append(f"taxa      {len(dm.names)} (distance matrix)")
+    lines.append(f"method    {info['method']}")
+    if info.get("fit_name"):
+        lines.append(f"fit       {info['fit_name']} {info['fit_value']:.4g}")
+    if boot is not None:
+        resumed = f", {info['resumed']} resumed" if info.get("resumed") else ""
+        lines.append(f"support   {boot.support.upper()}, {len(boot.replicates)} replicates{resumed}, seed {boot.seed}")
+    for w in run_warnings(aln, info):
+        lines.append(f"warning   {w}")
+    lines.append(f"time      {seconds:.2f} s")
+    return "\n".join(lines)
+
+
+@main.command()
+@click.argument("tree_path", metavar="TREE")
+@click.argument("replicates_path", metavar="REPLICATES")
+@click.option("--output", "-o", required=True, metavar="OUT", help="Tree file to write ('-': stdout).")
+@click.option("--support", "measure", type=click.Choice(["fbp", "tbe"]), default="fbp", show_default=True,
+              help="Felsenstein bootstrap proportion or transfer bootstrap expectation.")
+@tree_output_options
+@click.pass_obj
+@guarded
+def support(obj, tree_path, replicates_path, output, measure, fmt, digits, support_digits):
+    """Put support from a file of REPLICATES trees on the first tree of TREE."""
+    from .io import read_trees
+    from .support import apply_support, fbp_support, tbe_support
+
+    check_output_not_input(output, tree_path, replicates_path)
+    ref = read_trees(tree_path)[0]
+    reps = read_trees(replicates_path)
+    fn = fbp_support if measure == "fbp" else tbe_support
+    result = apply_support(ref, fn(ref, reps, source=replicates_path))
+    write_tree(result, output, fmt, digits, support_digits)
+    obj.say(f"support   {measure.upper()} from {len(reps)} replicate trees on {ref.n_leaves} taxa")
+
+
+@main.command()
+@click.argument("replicates_path", metavar="REPLICATES")
+@click.option("--output", "-o", required=True, metavar="OUT", help="Tree file to write ('-': stdout).")
+@click.option("--threshold", type=click.FloatRange(0.5, 1.0), default=0.5, show_default=True,
+              help="A split enters when its frequency is strictly greater than this.")
+@tree_output_options
+@click.pass_obj
+@guarded
+def consensus(obj, replicates_path, output, threshold, fmt, digits, support_digits):
+    """Majority-rule consensus of the trees in REPLICATES, with split frequencies as support."""
+    from .io import read_trees
+    from .support import majority_consensus
+
+    check_output_not_input(output, replicates_path)
+    trees = read_trees(replicates_path)
+    result = majority_consensus(trees, threshold, source=replicates_path)
+    write_tree(result, output, fmt, digits, support_digits)
+    n_splits = int(np.count_nonzero(np.isfinite(result.support)))
+    obj.say(f"consensus {len(trees)} trees, {n_splits} splits above {threshold:g}")
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -1,0 +1,303 @@
+"""The nonparametric bootstrap of sites (Felsenstein 1985), run in parallel.
+
+A replicate is a multinomial draw of site counts over the distinct site
+patterns; the distance engine takes those weights directly, so no replicate
+alignment is ever built. Replicate ``i`` draws from its own stream,
+``SeedSequence(seed, spawn_key=(i,))``, so every output is the same whatever
+the number of workers or the executor. Replicate trees are written to the
+replicate file in index order, one Newick tree per line, flushed as they
+complete; ``resume`` continues such a file.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import secrets
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..errors import InputError
+
+__all__ = ["BootstrapResult", "bootstrap", "replicate_weights"]
+
+
+@dataclass
+class BootstrapResult:
+    """The tree of the original data with support, and the replicate trees."""
+
+    tree: object
+    replicates: list
+    seed: int
+    support: str
+    info: dict = field(default_factory=dict)
+
+
+def replicate_weights(weights, seed, index):
+    """Site counts per pattern for replicate ``index``: a multinomial draw of
+    L sites with the patterns' observed frequencies (Felsenstein 1985)."""
+    weights = np.asarray(weights, dtype=np.int64)
+    total = int(weights.sum())
+    rng = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(index,)))
+    return rng.multinomial(total, weights / total)
+
+
+@dataclass(frozen=True)
+class _Job:
+    """Everything a worker needs to build replicate trees (sent once per worker)."""
+
+    names: tuple
+    patterns: np.ndarray
+    weights: np.ndarray
+    alphabet: str
+    seed: int
+    settings: tuple   # (model, gamma, gaps, freqs, saturated, method, negative)
+
+
+def _replicate_tree(job, index):
+    from ..build import build_tree
+    from ..distances import distance_matrix
+
+    aln = _job_alignment(job)
+    model, gamma, gaps, freqs, saturated, method, negative = job.settings
+    w = replicate_weights(job.weights, job.seed, index)
+    dm = distance_matrix(aln, model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated, weights=w)
+    tree = build_tree(dm, method, negative)
+    return index, tree.parent.copy(), tree.length.copy(), tree.rooted, tree.to_newick()
+
+
+_ALIGNMENTS = {}
+
+
+def _job_alignment(job):
+    """One Alignment per job per process, built from the patterns (cheap)."""
+    key = id(job)
+    if key not in _ALIGNMENTS:
+        from ..alignment import Alignment
+
+        aln = Alignment.__new__(Alignment)
+        aln.names, aln.alphabet, aln.source = job.names, job.alphabet, "replicate"
+        aln.patterns, aln.weights = job.patterns, job.weights
+        aln.states = job.patterns
+        aln.site_pattern = np.arange(job.patterns.shape[1])
+        _ALIGNMENTS.clear()
+        _ALIGNMENTS[key] = aln
+    return _ALIGNMENTS[key]
+
+
+_WORKER_JOB = None
+
+
+def _init_worker(job):
+    global _WORKER_JOB
+    import numba
+
+    numba.set_num_threads(1)  # parallelism is across replicates here
+    _WORKER_JOB = job
+
+
+def _run_chunk(indices):
+    return [_replicate_tree(_WORKER_JOB, i) for i in indices]
+
+
+def _run_chunk_with(job, indices):
+    """The Dask task: the job arrives as a scattered future."""
+    import numba
+
+    numba.set_num_threads(1)
+    return [_replicate_tree(job, i) for i in indices]
+
+
+def _chunks(indices, workers):
+    """Small chunks, so that no worker idles at the end of a run."""
+    size = max(1, min(16, len(indices) // max(1, 4 * workers)))
+    return [indices[k:k + size] for k in range(0, len(indices), size)]
+
+
+def _executor_results(job, todo, workers, scheduler):
+    """Yield replicate results in completion order from the chosen executor."""
+    if scheduler is not None:
+        yield from _dask_results(job, todo, scheduler)
+        return
+    if workers <= 1 or len(todo) <= 1:
+        for i in todo:
+            yield _replicate_tree(job, i)
+        return
+    import concurrent.futures as cf
+    import multiprocessing as mp
+
+    # spawn, not fork: numba's OpenMP thread pool does not survive a fork. A
+    # calling script therefore needs the usual `if __name__ == "__main__":` guard.
+    ctx = mp.get_context("spawn")
+    with cf.ProcessPoolExecutor(max_workers=workers, mp_context=ctx, initializer=_init_worker,
+                                initargs=(job,)) as pool:
+        futures = [pool.submit(_run_chunk, chunk) for chunk in _chunks(todo, workers)]
+        try:
+            for fut in cf.as_completed(futures):
+                yield from fut.result()
+        except BaseException:
+            for fut in futures:
+                fut.cancel()
+            raise
+
+
+def _dask_results(job, todo, scheduler):
+    try:
+        from dask.distributed import Client, as_completed
+    except ImportError:
+        raise InputError("--scheduler needs Dask: install cladewright[cluster]") from None
+    client = scheduler if hasattr(scheduler, "submit") else Client(scheduler)
+    try:
+        job_future = client.scatter(job, broadcast=True)
+        n_workers = max(1, len(client.scheduler_info().get("workers", {})))
+        # pure=False: every chunk runs, and a chunk lost with a worker is run again elsewhere.
+        futures = [client.submit(_run_chunk_with, job_future, chunk, pure=False, retries=3)
+                   for chunk in _chunks(todo, n_workers)]
+        for fut in as_completed(futures):
+            yield from fut.result()
+    finally:
+        if client is not scheduler:
+            client.close()
+
+
+def _run_key(job):
+    """What a replicate file was made from: resume refuses a file from another run."""
+    import hashlib
+
+    h = hashlib.sha256()
+    h.update(np.ascontiguousarray(job.patterns).tobytes())
+    h.update(np.ascontiguousarray(job.weights).tobytes())
+    h.update("\t".join(job.names).encode())
+    return {"seed": job.seed, "settings": list(job.settings), "data": h.hexdigest()}
+
+
+def _sidecar(path):
+    return os.fspath(path) + ".run.json"
+
+
+def _read_done(path, job, replicates):
+    """The complete replicate lines of an earlier run (a torn last line is cut off)."""
+    from ..io.newick import parse_newick
+
+    meta_path = _sidecar(path)
+    try:
+        with open(meta_path, encoding="utf-8") as fh:
+            meta = json.load(fh)
+    except (OSError, ValueError):
+        raise InputError(f"cannot resume: {meta_path} (the record of the run that made the file) is missing "
+                         "or damaged; start a new replicate file", source=os.fspath(path)) from None
+    if {k: meta.get(k) for k in ("seed", "settings", "data")} != _run_key(job):
+        raise InputError("cannot resume: the file was made from other data, settings or seed; give the same "
+                         "input and options (the seed is in " + meta_path + ") or start a new file",
+                         source=os.fspath(path))
+    with open(path, "rb") as fh:
+        data = fh.read()
+    keep = data.rfind(b"\n") + 1
+    lines = data[:keep].decode("utf-8").splitlines()
+    trees = []
+    for k, line in enumerate(lines[:replicates]):
+        try:
+            trees.append(parse_newick(line, source=f"{os.fspath(path)} line {k + 1}")[0])
+        except InputError:
+            keep = sum(len(x.encode()) + 1 for x in lines[:k])
+            break
+    with open(path, "r+b") as fh:
+        fh.truncate(keep)
+    return trees
+
+
+def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None, gaps="pairwise",
+              freqs="alignment", saturated="error", negative="zero", seed=None, workers=None, support="fbp",
+              save_replicates=None, resume=False, scheduler=None, progress=True):
+    """Bootstrap support for the tree of an alignment.
+
+    Parameters
+    ----------
+    alignment : Alignment
+    replicates : int
+        Number of bootstrap replicates (>= 1).
+    model, gamma, gaps, freqs, saturated : see :func:`cladewright.distance_matrix`
+    method, negative : see :func:`cladewright.build_tree`
+    seed : int, optional
+        The run's seed; drawn (and returned) when not given.
+    workers : int, optional
+        Local processes; default: the number of cores.
+    support : {"fbp", "tbe"}
+        Felsenstein bootstrap proportion or transfer bootstrap expectation.
+    save_replicates : path, optional
+        Append each replicate tree to this file (one Newick line each).
+    resume : bool
+        Continue ``save_replicates`` from an interrupted run with the same input and settings.
+    scheduler : str or dask.distributed.Client, optional
+        Run the replicates on a Dask cluster instead of local processes.
+    progress : bool
+        A progress line with the time left on stderr, when it is a terminal.
+
+    Returns
+    -------
+    BootstrapResult
+
+    References
+    ----------
+    Felsenstein (1985) Evolution 39:783–791; Lemoine et al. (2018) Nature 556:452–456.
+    """
+    from ..build import build_tree_with_info
+    from ..distances import distance_matrix
+    from ..io.files import atomic_output
+    from ..progress import Progress
+    from ..tree import Tree
+    from . import fbp_support, tbe_support, apply_support
+
+    if not isinstance(replicates, (int, np.integer)) or replicates < 1:
+        raise InputError(f"replicates must be a whole number >= 1, got {replicates!r}")
+    if support not in ("fbp", "tbe"):
+        raise InputError(f"unknown support measure {support!r}; choose fbp or tbe")
+    if resume and save_replicates is None:
+        raise InputError("--resume needs --save-replicates FILE, the file of the run to continue")
+    if seed is None:
+        seed = secrets.randbelow(2**31)
+    workers = (os.cpu_count() or 1) if workers is None else int(workers)
+    if workers < 1:
+        raise InputError(f"workers must be >= 1, got {workers}")
+
+    dm = distance_matrix(alignment, model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated)
+    tree, info = build_tree_with_info(dm, method, negative)
+    job = _Job(alignment.names, alignment.patterns, alignment.weights, alignment.alphabet, int(seed),
+               (model, gamma, gaps, freqs, saturated, method, negative))
+
+    done = []
+    out = None
+    if save_replicates is not None:
+        path = os.fspath(save_replicates)
+        if os.path.exists(path) and not resume:
+            raise InputError("the replicate file exists; pass --resume to continue it, or choose a new path",
+                             source=path)
+        if resume and os.path.exists(path):
+            done = _read_done(path, job, replicates)
+        else:
+            with atomic_output(_sidecar(path)) as fh:
+                json.dump(_run_key(job), fh)
+        out = open(path, "a", encoding="utf-8", newline="\n")
+    trees = list(done)
+    pending = {}
+    next_index = len(done)
+    todo = list(range(len(done), replicates))
+    try:
+        with Progress("bootstrap", replicates, enabled=progress, done=len(done)) as bar:
+            for index, parent, length, rooted, newick in _executor_results(job, todo, workers, scheduler):
+                pending[index] = (parent, length, rooted, newick)
+                while next_index in pending:
+                    parent, length, rooted, newick = pending.pop(next_index)
+                    trees.append(Tree(parent, length, alignment.names, rooted=rooted))
+                    if out is not None:
+                        out.write(newick)
+                        out.flush()
+                    next_index += 1
+                bar.advance()
+    finally:
+        if out is not None:
+            out.close()
+    values = fbp_support(tree, trees) if support == "fbp" else tbe_support(tree, trees)
+    info.update(dm.info, replicates=replicates, resumed=len(done), workers=workers)
+    return BootstrapResult(apply_support(tree, values), trees, int(seed), support, info)
