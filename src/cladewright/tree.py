@@ -1,0 +1,437 @@
+"""Tree: a phylogenetic tree held as flat arrays.
+
+A tree of ``m`` nodes is an array of parent indices (``-1`` for the root), an
+array of branch lengths and, optionally, support values and internal labels.
+Leaves are nodes ``0..n-1`` in the order of ``leaf_names``; internal nodes are
+``n..m-1``. Children are kept as CSR arrays computed once; preorder and
+postorder are computed iteratively (no recursion, so a 50,000-leaf caterpillar
+is fine) and cached.
+
+Siblings are ordered by the smallest leaf index in their subtrees. A parser
+that numbers leaves in the order they appear therefore gets the written child
+order back, and a tree built from a distance matrix is written in a stable,
+reproducible order.
+
+References
+----------
+Robinson, D. F. & Foulds, L. R. (1981) Comparison of phylogenetic trees.
+Math. Biosci. 53:131-147 (splits / bipartitions of a tree).
+Newick format: the trade's de facto standard (1986 informal specification).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+__all__ = ["Tree"]
+
+# Rows of the boolean membership matrix made at once in splits(): bounds the
+# temporary memory to about this many bytes.
+_SPLIT_CHUNK_CELLS = 1 << 24
+
+
+class Tree:
+    """A rooted or unrooted phylogenetic tree stored as arrays.
+
+    Parameters
+    ----------
+    parent : array_like of int, shape (m,)
+        Parent index of each node, ``-1`` for the single root. Leaves are nodes
+        ``0..n-1``, internal nodes ``n..m-1``.
+    length : array_like of float, shape (m,)
+        Length of the branch to the parent; ``nan`` means no length given.
+    leaf_names : sequence of str, length n
+        Unique leaf names, in leaf index order.
+    support : array_like of float, shape (m,), optional
+        Support of the branch above each internal node, as a percentage;
+        ``nan`` means none.
+    labels : list of (str or None), length m, optional
+        Non-numeric internal node labels kept from a file.
+    rooted : bool
+        Whether the root is meaningful. An unrooted tree is normally stored
+        with a root of degree 3.
+
+    References
+    ----------
+    Newick format: the trade's de facto standard (1986 informal specification).
+
+    Examples
+    --------
+    >>> t = Tree([3, 3, 3, -1], [0.1, 0.2, 0.3, np.nan], ["a", "b", "c"])
+    >>> t.to_newick()
+    '(a:0.1,b:0.2,c:0.3);\\n'
+    """
+
+    __slots__ = ("_parent", "_length", "_support", "_labels", "_leaf_names", "rooted",
+                 "_root", "_ptr", "_kids", "_pre", "_post", "_intervals", "_leaf_index")
+
+    def __init__(self, parent, length, leaf_names, *, support=None, labels=None, rooted=False):
+        parent = np.array(parent, dtype=np.int64).reshape(-1)
+        m = parent.shape[0]
+        length = np.array(length, dtype=np.float64).reshape(-1)
+        names = tuple(leaf_names)
+        n = len(names)
+        if not all(isinstance(x, str) for x in names):
+            raise ValueError("leaf names must be str")
+        if n < 1 or m < n:
+            raise ValueError(f"need at least one leaf and at least as many nodes as leaves (m={m}, n={n})")
+        if length.shape != (m,):
+            raise ValueError(f"length has shape {length.shape}, expected ({m},)")
+        if support is None:
+            support = np.full(m, np.nan)
+        else:
+            support = np.array(support, dtype=np.float64).reshape(-1)
+            if support.shape != (m,):
+                raise ValueError(f"support has shape {support.shape}, expected ({m},)")
+        if labels is None:
+            labels = [None] * m
+        else:
+            labels = list(labels)
+            if len(labels) != m:
+                raise ValueError(f"labels has {len(labels)} entries, expected {m}")
+        if len(set(names)) != n:
+            seen = set()
+            dup = next(x for x in names if x in seen or seen.add(x))
+            raise ValueError(f"leaf name {dup!r} is used more than once")
+        roots = np.flatnonzero(parent == -1)
+        if roots.size != 1:
+            raise ValueError(f"need exactly one root (parent -1), found {roots.size}")
+        if parent.min() < -1 or parent.max() >= m:
+            raise ValueError("parent indices must lie in -1..m-1")
+        if np.any(parent == np.arange(m)):
+            raise ValueError("a node cannot be its own parent")
+        nkids = np.bincount(parent[parent >= 0], minlength=m)
+        if np.any(nkids[:n] > 0):
+            raise ValueError("leaves (nodes 0..n-1) must not have children")
+        if np.any(nkids[n:] == 0):
+            raise ValueError("internal nodes (n..m-1) must have children")
+        for a in (parent, length, support):
+            a.flags.writeable = False
+        self._parent, self._length, self._support = parent, length, support
+        self._labels, self._leaf_names, self.rooted = labels, names, bool(rooted)
+        self._root = int(roots[0])
+        self._ptr, self._kids = _children_csr(parent, n)
+        self._pre = _preorder(self._ptr, self._kids, self._root, mirror=False)
+        if self._pre.shape[0] != m:
+            raise ValueError("parent array contains a cycle or nodes not connected to the root")
+        self._post = None
+        self._intervals = None
+        self._leaf_index = None
+
+    # ---- basic attributes -------------------------------------------------
+    @property
+    def n_leaves(self):
+        """Number of leaves ``n``."""
+        return len(self._leaf_names)
+
+    @property
+    def n_nodes(self):
+        """Number of nodes ``m`` (leaves and internal)."""
+        return self._parent.shape[0]
+
+    @property
+    def root(self):
+        """Index of the root node."""
+        return self._root
+
+    @property
+    def leaf_names(self):
+        """Leaf names as a tuple, in leaf index order."""
+        return self._leaf_names
+
+    @property
+    def parent(self):
+        """Parent index of every node (read-only int64 array, root -1)."""
+        return self._parent
+
+    @property
+    def length(self):
+        """Branch length above every node (read-only float64 array, nan = none)."""
+        return self._length
+
+    @property
+    def support(self):
+        """Support of the branch above every node (read-only float64, nan = none)."""
+        return self._support
+
+    @property
+    def labels(self):
+        """Internal node labels kept from a file (list of str or None, length m)."""
+        return self._labels
+
+    def __repr__(self):
+        kind = "rooted" if self.rooted else "unrooted"
+        return f"Tree({self.n_leaves} leaves, {self.n_nodes} nodes, {kind})"
+
+    def leaf_index(self, name):
+        """Index of the leaf called ``name`` (KeyError if there is none)."""
+        if self._leaf_index is None:
+            self._leaf_index = {x: i for i, x in enumerate(self._leaf_names)}
+        return self._leaf_index[name]
+
+    # ---- structure --------------------------------------------------------
+    def children(self, node):
+        """Children of ``node`` as an int64 array, in sibling order."""
+        return self._kids[self._ptr[node]:self._ptr[node + 1]]
+
+    def n_children(self):
+        """Number of children of every node (int64 array, shape (m,))."""
+        return np.diff(self._ptr)
+
+    def preorder(self):
+        """Nodes in depth-first preorder (parents before children), cached."""
+        return self._pre
+
+    def postorder(self):
+        """Nodes in depth-first postorder (children, left to right, before
+        their parent), cached."""
+        if self._post is None:
+            # Reversing a preorder that visits children right to left gives
+            # the left-to-right postorder.
+            post = _preorder(self._ptr, self._kids, self._root, mirror=True)[::-1].copy()
+            post.flags.writeable = False
+            self._post = post
+        return self._post
+
+    def _leaf_intervals(self):
+        """(lo, hi, leafseq): the leaves below node v are leafseq[lo[v]:hi[v]],
+        where leafseq is the leaves in preorder (a subtree's leaves are
+        contiguous in any depth-first order)."""
+        if self._intervals is None:
+            n, m = self.n_leaves, self.n_nodes
+            pre, post = self._pre, self.postorder()
+            is_leaf_pre = pre < n
+            lo = np.empty(m, np.int64)
+            # leaves strictly before v in preorder = leaves left of v's subtree
+            lo[pre] = np.cumsum(is_leaf_pre) - is_leaf_pre
+            hi = np.empty(m, np.int64)
+            # leaves up to v in postorder = leaves left of v's subtree and in it
+            hi[post] = np.cumsum(post < n)
+            self._intervals = (lo, hi, pre[is_leaf_pre])
+        return self._intervals
+
+    def leaf_counts(self):
+        """Number of leaves below every node (int64 array, shape (m,))."""
+        lo, hi, _ = self._leaf_intervals()
+        return hi - lo
+
+    def splits(self, order=None, trivial=False):
+        """The tree's splits (bipartitions of the leaves) as bitsets.
+
+        Parameters
+        ----------
+        order : sequence of str, optional
+            Leaf names giving the bit positions (default ``leaf_names``); must
+            hold exactly this tree's leaf names.
+        trivial : bool
+            Keep splits with a side of one leaf (the edges to leaves).
+
+        Returns
+        -------
+        bits : uint64 ndarray, shape (k, ceil(n/64))
+            Bit ``b`` of a row (word ``b // 64``, bit ``b % 64``) is set when the
+            leaf at position ``b`` of ``order`` lies on the set side. Each
+            split is canonicalised so that the first leaf of ``order`` is not
+            in the set.
+        nodes : int64 ndarray, shape (k,)
+            The node whose edge to its parent gives that split. Edges giving
+            the same bipartition (the two edges of a degree-2 root, a chain of
+            one-child nodes) appear once, under the topmost such node in
+            preorder.
+
+        References
+        ----------
+        Robinson & Foulds (1981) Math. Biosci. 53:131-147.
+        """
+        n = self.n_leaves
+        lo, hi, leafseq = self._leaf_intervals()
+        if order is None:
+            pos = np.empty(n, np.int64)
+            pos[leafseq] = np.arange(n)
+        else:
+            order = list(order)
+            if len(order) != n or set(order) != set(self._leaf_names):
+                raise ValueError("order must hold exactly the tree's leaf names")
+            where = np.empty(n, np.int64)
+            where[leafseq] = np.arange(n)
+            pos = where[np.fromiter((self.leaf_index(x) for x in order), np.int64, n)]
+        # pos[j]: place in leafseq of the j-th leaf of `order`.
+        cand = self._pre[1:]  # every non-root node, in preorder
+        c_lo, c_hi = lo[cand], hi[cand]
+        # A set [0, a) is the complement of [a, n): key both by the latter so
+        # that complementary edges (degree-2 root) coincide.
+        k_lo = np.where(c_lo == 0, c_hi, c_lo)
+        k_hi = np.where(c_lo == 0, n, c_hi)
+        size = k_hi - k_lo
+        lim = 1 if trivial else 2
+        keep = (size >= lim) & (size <= n - lim)
+        key = k_lo[keep] * (n + 1) + k_hi[keep]
+        _, first = np.unique(key, return_index=True)
+        sel = np.flatnonzero(keep)[np.sort(first)]
+        nodes = cand[sel].astype(np.int64)
+        s_lo, s_hi = c_lo[sel], c_hi[sel]
+        words = (n + 63) // 64
+        bits = np.zeros((nodes.size, words), np.uint64)
+        step = max(1, _SPLIT_CHUNK_CELLS // max(n, 1))
+        pad = words * 64 - n
+        for a in range(0, nodes.size, step):
+            b = min(nodes.size, a + step)
+            member = (pos[None, :] >= s_lo[a:b, None]) & (pos[None, :] < s_hi[a:b, None])
+            # canonical side: the first leaf of `order` is outside the set
+            member ^= member[:, :1]
+            if pad:
+                member = np.concatenate([member, np.zeros((b - a, pad), bool)], axis=1)
+            packed = np.packbits(member, axis=1, bitorder="little")
+            bits[a:b] = packed.view("<u8").astype(np.uint64, copy=False)
+        return bits, nodes
+
+    # ---- derived values ---------------------------------------------------
+    def patristic(self):
+        """Leaf-to-leaf path lengths (missing lengths count as 0).
+
+        Returns
+        -------
+        float64 ndarray, shape (n, n)
+        """
+        from .kernels.patristic import patristic_distances
+        length = np.nan_to_num(np.asarray(self._length, dtype=np.float64), nan=0.0)
+        parent = np.ascontiguousarray(self._parent)
+        post = np.ascontiguousarray(self.postorder())
+        return patristic_distances(parent, length, post, self.n_leaves)
+
+    def with_support(self, support):
+        """A new Tree with the same shape, lengths and labels and ``support``.
+
+        Parameters
+        ----------
+        support : array_like of float, shape (m,)
+            Percentages, nan for none.
+        """
+        support = np.array(support, dtype=np.float64).reshape(-1)
+        if support.shape != (self.n_nodes,):
+            raise ValueError(f"support has shape {support.shape}, expected ({self.n_nodes},)")
+        support.flags.writeable = False
+        new = object.__new__(Tree)
+        for slot in Tree.__slots__:
+            setattr(new, slot, getattr(self, slot))
+        new._support = support
+        return new
+
+    # ---- output -----------------------------------------------------------
+    def to_newick(self, digits=None, support_digits=0):
+        """The tree as one line of Newick text ending in ``";\\n"``.
+
+        Parameters
+        ----------
+        digits : int, optional
+            Significant digits of branch lengths; default the shortest text
+            that reads back to the same float.
+        support_digits : int
+            Decimals of support values (0: integer percentages).
+
+        References
+        ----------
+        Newick format: the trade's de facto standard (1986 informal specification).
+        """
+        from .io.newick import format_newick
+        return format_newick(self, digits=digits, support_digits=support_digits)
+
+    def write(self, path, format="newick", **options):
+        """Write the tree to ``path`` (``-`` for standard output) atomically.
+
+        Parameters
+        ----------
+        path : str or os.PathLike
+        format : {"newick", "nexus"}
+        **options
+            ``digits``, ``support_digits`` (and ``tree_names`` for NEXUS).
+        """
+        from .io.files import atomic_output
+        if format == "newick":
+            from .io.newick import format_newick
+            text = format_newick(self, **options)
+        elif format == "nexus":
+            from .io.nexus import format_nexus
+            text = format_nexus([self], **options)
+        else:
+            raise ValueError(f"unknown tree format {format!r}; use 'newick' or 'nexus'")
+        with atomic_output(path) as fh:
+            fh.write(text)
+
+    def to_ete3(self):
+        """The tree as an ``ete3.Tree`` (names, lengths, support kept; a
+        missing length becomes 0.0, a missing support stays at ete3's
+        default)."""
+        import ete3
+        n = self.n_leaves
+        length, support, labels = self._length, self._support, self._labels
+        made = [None] * self.n_nodes
+        root = ete3.Tree()
+        made[self._root] = root
+        parent = self._parent.tolist()
+        for v in self._pre.tolist():
+            if v == self._root:
+                node = root
+            else:
+                node = made[parent[v]].add_child()
+                made[v] = node
+                node.dist = 0.0 if math.isnan(length[v]) else float(length[v])
+            if v < n:
+                node.name = self._leaf_names[v]
+            else:
+                if labels[v] is not None:
+                    node.name = labels[v]
+                if not math.isnan(support[v]):
+                    node.support = float(support[v])
+        return root
+
+
+def _children_csr(parent, n):
+    """(ptr, kids): children of v are kids[ptr[v]:ptr[v+1]], ordered by the
+    smallest leaf index below each child."""
+    m = parent.shape[0]
+    par = parent.tolist()
+    minleaf = [-1] * m
+    # Leaves in increasing index: each climbs until it meets a node already
+    # claimed by a smaller leaf, so every node is visited once.
+    for leaf in range(n):
+        v = leaf
+        while v != -1 and minleaf[v] < 0:
+            minleaf[v] = leaf
+            v = par[v]
+    minleaf = np.array(minleaf, dtype=np.int64)
+    nonroot = np.flatnonzero(parent >= 0)
+    kids = nonroot[np.lexsort((minleaf[nonroot], parent[nonroot]))]
+    ptr = np.zeros(m + 1, np.int64)
+    np.cumsum(np.bincount(parent[nonroot], minlength=m), out=ptr[1:])
+    for a in (kids, ptr):
+        a.flags.writeable = False
+    return ptr, kids
+
+
+def _preorder(ptr, kids, root, mirror):
+    """Iterative depth-first preorder; children right to left if ``mirror``."""
+    p = ptr.tolist()
+    k = kids.tolist()
+    out = []
+    push = out.append
+    stack = [root]
+    pop = stack.pop
+    extend = stack.extend
+    if mirror:
+        while stack:
+            v = pop()
+            push(v)
+            extend(k[p[v]:p[v + 1]])
+    else:
+        while stack:
+            v = pop()
+            push(v)
+            a, b = p[v], p[v + 1]
+            if b > a:
+                extend(k[b - 1:a - 1 if a else None:-1])
+    res = np.array(out, dtype=np.int64)
+    res.flags.writeable = False
+    return res
