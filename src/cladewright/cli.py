@@ -328,3 +328,4 @@ def consensus(obj, replicates_path, output, threshold, fmt, digits, support_digi
 
 if __name__ == "__main__":  # pragma: no cover
     main()
+from . import cli_tools  # noqa: E402,F401  (registers root, compare, clusters, draw, show)

@@ -1,0 +1,232 @@
+"""Tree tools on the command line: root, compare, clusters, draw, show.
+
+Registered on :data:`cladewright.cli.main` (``cli.py`` imports this module).
+No computation here: read, call the library, write, report.
+"""
+
+from __future__ import annotations
+
+import click
+import numpy as np
+
+from .cli import Context, check_output_not_input, guarded, main  # noqa: F401 - Context is obj's type
+from .errors import InputError
+
+ROOT_HELP = "Root first: 'midpoint', or outgroup taxa separated by commas."
+
+
+def _first_tree(path, obj=None):
+    """The first tree of a Newick or NEXUS file (a note when it holds more)."""
+    from .io import read_trees
+
+    trees = read_trees(path)
+    if not trees:
+        raise InputError("holds no tree; give a Newick or NEXUS file with at least one tree", source=path)
+    if len(trees) > 1 and obj is not None:
+        obj.say(f"note      {path} holds {len(trees)} trees; using the first")
+    return trees[0]
+
+
+def _support_digits(tree):
+    """Decimals that write the tree's support values back exactly (0 to 2)."""
+    s = np.asarray(tree.support, dtype=np.float64)
+    s = s[np.isfinite(s)]
+    for digits in (0, 1):
+        if np.allclose(s, np.round(s, digits), rtol=0, atol=1e-9):
+            return digits
+    return 2
+
+
+def _write_tree(tree, output):
+    fmt = "nexus" if output.lower().endswith((".nex", ".nexus")) else "newick"
+    tree.write(output, format=fmt, support_digits=_support_digits(tree))
+
+
+@main.command("root")
+@click.argument("tree_path", metavar="TREE")
+@click.option("--output", "-o", required=True, metavar="FILE",
+              help="Rooted tree to write: Newick, NEXUS when FILE ends in .nex or .nexus ('-': stdout).")
+@click.option("--midpoint", is_flag=True, help="Root halfway along the longest leaf-to-leaf path.")
+@click.option("--outgroup", metavar="TAXON[,TAXON...]",
+              help="Root on the branch separating these taxa (a clade of the unrooted tree) from the rest.")
+@click.pass_obj
+@guarded
+def root(obj, tree_path, output, midpoint, outgroup):
+    """Root the first tree of TREE at its midpoint or on an outgroup.
+
+    Branch lengths are split where the root falls; support stays with the
+    split it belongs to.
+    """
+    from .rooting import midpoint_root, outgroup_root
+
+    if midpoint == bool(outgroup):
+        raise InputError("give exactly one of --midpoint or --outgroup TAXON[,TAXON...]")
+    check_output_not_input(output, tree_path)
+    tree = _first_tree(tree_path, obj)
+    if midpoint:
+        rooted = midpoint_root(tree)
+        how = "midpoint of the longest path"
+    else:
+        rooted = outgroup_root(tree, outgroup.split(","))
+        how = f"outgroup {outgroup}"
+    _write_tree(rooted, output)
+    obj.say(f"rooted    {rooted.n_leaves} taxa, {how}\nwritten   {output}")
+
+
+def _pair(paths, trees, i, j):
+    from .support import branch_score, robinson_foulds
+
+    rf = robinson_foulds(trees[i], trees[j], source=paths[j])
+    rf["branch_score"] = branch_score(trees[i], trees[j], source=paths[j])
+    return rf
+
+
+def _square(labels, values, fmt):
+    width = max(len(x) for x in labels)
+    cells = [[fmt(v) for v in row] for row in values]
+    cw = max(max(len(c) for row in cells for c in row), max(len(x) for x in labels))
+    lines = [" " * width + "  " + "  ".join(x.rjust(cw) for x in labels)]
+    for label, row in zip(labels, cells):
+        lines.append(label.ljust(width) + "  " + "  ".join(c.rjust(cw) for c in row))
+    return "\n".join(lines)
+
+
+@main.command("compare")
+@click.argument("tree_files", nargs=-1, required=True, metavar="TREE_A TREE_B [MORE...]")
+@click.option("--tsv", is_flag=True, help="Tab-separated output, one row per pair of trees, for machines.")
+@click.option("--output", "-o", default="-", show_default=True, metavar="FILE", help="Where to write ('-': stdout).")
+@click.pass_obj
+@guarded
+def compare(obj, tree_files, tsv, output):
+    """Compare trees by their splits: Robinson–Foulds distance (raw and
+    normalised by 2(n - 3)), splits shared and unique to each, branch score.
+
+    Takes the first tree of each file; the trees must hold the same taxa.
+    Rooting is ignored (splits of the unrooted trees). With more than two
+    trees the distances are shown as matrices.
+    """
+    from .io.files import write_text_atomic
+
+    if len(tree_files) < 2:
+        raise InputError("compare needs at least two tree files")
+    check_output_not_input(output, *tree_files)
+    trees = [_first_tree(p, obj) for p in tree_files]
+    k = len(trees)
+    results = {(i, j): _pair(tree_files, trees, i, j) for i in range(k) for j in range(i + 1, k)}
+    n = trees[0].n_leaves
+    if tsv:
+        lines = ["tree_a\ttree_b\ttaxa\trf\trf_max\trf_normalised\tshared\tonly_a\tonly_b\tbranch_score"]
+        for (i, j), r in results.items():
+            lines.append(f"{tree_files[i]}\t{tree_files[j]}\t{n}\t{r['rf']}\t{r['max']}\t{r['normalised']!r}\t"
+                         f"{r['shared']}\t{r['only_a']}\t{r['only_b']}\t{r['branch_score']!r}")
+        text = "\n".join(lines) + "\n"
+    elif k == 2:
+        r = results[(0, 1)]
+        rows = [("tree A", f"{tree_files[0]}"), ("tree B", f"{tree_files[1]}"), ("taxa", f"{n}"),
+                ("Robinson–Foulds distance", f"{r['rf']} of at most {r['max']} (normalised {r['normalised']:.4f})"),
+                ("splits shared", f"{r['shared']}"), ("splits only in A", f"{r['only_a']}"),
+                ("splits only in B", f"{r['only_b']}"), ("branch score distance", f"{r['branch_score']:.6g}")]
+        width = max(len(a) for a, _ in rows)
+        text = "\n".join(f"{a.ljust(width)}  {b}" for a, b in rows) + "\n"
+    else:
+        labels = [f"T{i + 1}" for i in range(k)]
+        rf = np.zeros((k, k), dtype=np.int64)
+        norm = np.zeros((k, k))
+        bs = np.zeros((k, k))
+        for (i, j), r in results.items():
+            rf[i, j] = rf[j, i] = r["rf"]
+            norm[i, j] = norm[j, i] = r["normalised"]
+            bs[i, j] = bs[j, i] = r["branch_score"]
+        top = results[(0, 1)]["max"]
+        parts = ["\n".join(f"{label}  {path}" for label, path in zip(labels, tree_files)),
+                 f"Robinson–Foulds distance ({n} taxa, at most {top})\n" + _square(labels, rf, str),
+                 "normalised Robinson–Foulds distance\n" + _square(labels, norm, lambda v: f"{v:.3f}"),
+                 "branch score distance\n" + _square(labels, bs, lambda v: f"{v:.4g}")]
+        text = "\n\n".join(parts) + "\n"
+    write_text_atomic(output, text)
+
+
+@main.command("clusters")
+@click.argument("tree_path", metavar="TREE")
+@click.option("--within", "within", type=float, required=True, metavar="D",
+              help="Largest path length between two members of a group (inclusive).")
+@click.option("--output", "-o", required=True, metavar="FILE", help="TSV of taxon and group ('-': stdout).")
+@click.option("--root", "rooting", type=click.Choice(["auto", "stored", "midpoint"]), default="auto",
+              show_default=True, help="auto: a rooted tree as stored, an unrooted one midpoint-rooted first.")
+@click.pass_obj
+@guarded
+def clusters(obj, tree_path, within, output, rooting):
+    """Group the taxa of TREE into the largest clades whose members all lie
+    within path length D of each other (e.g. barcodes at a divergence
+    threshold). On a UPGMA tree this is cutting the tree at height D/2.
+
+    Groups are numbered from 1, largest first, ties by their alphabetically
+    first taxon.
+    """
+    from .clusters import clusters_within
+    from .io.files import write_text_atomic
+
+    check_output_not_input(output, tree_path)
+    tree = _first_tree(tree_path, obj)
+    labels, sizes = clusters_within(tree, within, root=rooting)
+    names = tree.leaf_names
+    order = sorted(range(len(names)), key=lambda i: (int(labels[i]), names[i]))
+    lines = ["taxon\tgroup\tgroup_size"]
+    lines += [f"{names[i]}\t{labels[i]}\t{sizes[labels[i] - 1]}" for i in order]
+    write_text_atomic(output, "\n".join(lines) + "\n")
+    shown = ", ".join(str(s) for s in sizes[:12]) + (f", ... ({sizes.size - 12} more)" if sizes.size > 12 else "")
+    single = int(np.count_nonzero(sizes == 1))
+    obj.say(f"groups    {sizes.size} within {within:g} ({len(names)} taxa; {single} singleton(s))\n"
+            f"sizes     {shown}\nwritten   {output}")
+
+
+@main.command("draw")
+@click.argument("tree_path", metavar="TREE")
+@click.option("--output", "-o", required=True, metavar="FIGURE", help="Figure to write: .svg, .png or .pdf.")
+@click.option("--highlight-below", type=float, default=None, metavar="SUPPORT",
+              help="Mark support values below this (e.g. 70).")
+@click.option("--no-ladderize", is_flag=True, help="Keep the stored order of branches.")
+@click.option("--title", default=None, help="Title at the top of the figure.")
+@click.option("--root", "root_spec", default=None, metavar="midpoint|TAXA", help=ROOT_HELP)
+@click.option("--groups-within", type=float, default=None, metavar="D",
+              help="Colour the taxa by their group at path length D (see 'clusters').")
+@click.pass_obj
+@guarded
+def draw(obj, tree_path, output, highlight_below, no_ladderize, title, root_spec, groups_within):
+    """Draw the first tree of TREE as a figure (SVG, PNG or PDF by suffix)."""
+    from .draw import render_tree
+
+    check_output_not_input(output, tree_path)
+    tree = _first_tree(tree_path, obj)
+    if root_spec:
+        from .rooting import root_tree
+        tree = root_tree(tree, root_spec)
+    groups = None
+    if groups_within is not None:
+        from .clusters import clusters_within
+        groups, sizes = clusters_within(tree, groups_within)
+    fmt = render_tree(tree, output, highlight_below=highlight_below, ladderize=not no_ladderize, title=title,
+                    groups=groups)
+    obj.say(f"drawn     {tree.n_leaves} taxa as {fmt.upper()}\nwritten   {output}")
+
+
+@main.command("show")
+@click.argument("tree_path", metavar="TREE")
+@click.option("--ascii", "plain", is_flag=True, help="Plain ASCII characters instead of box drawing.")
+@click.option("--width", type=click.IntRange(10, 1000), default=None, help="Columns for the branches.")
+@click.option("--no-ladderize", is_flag=True, help="Keep the stored order of branches.")
+@click.option("--root", "root_spec", default=None, metavar="midpoint|TAXA", help=ROOT_HELP)
+@click.pass_obj
+@guarded
+def show(obj, tree_path, plain, width, no_ladderize, root_spec):
+    """Print the first tree of TREE as a text drawing, with support values."""
+    from .textdraw import text_tree
+
+    tree = _first_tree(tree_path, obj)
+    if root_spec:
+        from .rooting import root_tree
+        tree = root_tree(tree, root_spec)
+    click.echo(text_tree(tree, width=width, ascii=plain, ladderize=not no_ladderize), nl=False)
+
+
+__all__ = ["root", "compare", "clusters", "draw", "show"]

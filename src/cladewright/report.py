@@ -1,0 +1,284 @@
+"""A run report: one self-contained HTML file.
+
+Everything is inline (styles, and the figures as SVG), so the file opens
+offline, can be mailed or archived, and asks no server for anything. It
+records what went in (taxa, sites, alphabet, gaps, distinct patterns), how
+the run was set up (every setting and the exact command line), the software
+versions, the fit of the tree to the distances, every warning, and three
+figures: the tree, a heat map of the distances in the tree's leaf order, and
+a histogram of support values.
+
+References
+----------
+Sokal & Rohlf (1962) Taxon 11:33-40 (cophenetic correlation); Fitch &
+Margoliash (1967) Science 155:279-284 (percent standard deviation);
+Felsenstein (1985) Evolution 39:783-791 (bootstrap support).
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import html
+import platform
+import re
+import shlex
+
+import numpy as np
+
+__all__ = ["write_report", "report_html", "CAUTION", "software_versions"]
+
+CAUTION = ("A distance tree is exploratory evidence: a first look at the data. Where results may feed "
+           "decisions about people, such as outbreak or transmission inference, do not rely on it alone: "
+           "defer to validated methods, expert review and the rules that apply locally.")
+
+#: Sequences with unambiguous states at fewer than this share of sites are flagged.
+LITTLE_DATA = 0.5
+
+_CSS = """
+body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,"DejaVu Sans",sans-serif;color:#1b1f24;
+max-width:60rem;margin:2rem auto;padding:0 1rem;line-height:1.45}
+h1{font-size:1.6rem;margin-bottom:.2rem}h2{font-size:1.2rem;border-bottom:2px solid #1f3a56;padding-bottom:.2rem;
+margin-top:2rem}.sub{color:#55616d;margin-top:0}table{border-collapse:collapse;margin:.5rem 0}
+td,th{padding:.2rem .8rem .2rem 0;text-align:left;vertical-align:top}th{color:#55616d;font-weight:600}
+pre{background:#f3f5f7;padding:.6rem;overflow-x:auto;white-space:pre-wrap;word-break:break-all}
+.caution{border-left:5px solid #c4501a;background:#fbf1ec;padding:.6rem 1rem}
+.warn li{color:#8a3510}.fig svg{max-width:100%;height:auto}
+"""
+
+
+def software_versions():
+    """Versions of Python and the libraries a run depends on (dict)."""
+    import numba
+    import scipy
+    import matplotlib
+    from . import __version__
+
+    return {"cladewright": __version__, "python": platform.python_version(), "numpy": np.__version__,
+            "scipy": scipy.__version__, "numba": numba.__version__, "matplotlib": matplotlib.__version__,
+            "platform": platform.platform()}
+
+
+def _svg(fig, salt):
+    from .draw import figure_bytes
+
+    text = figure_bytes(fig, "svg", salt=salt).decode("utf-8")
+    text = text[text.index("<svg"):]
+    # The RDF block only names vocabularies; dropping it keeps the page free
+    # of any address it could be mistaken to load.
+    return re.sub(r"<metadata>.*?</metadata>", "", text, flags=re.S)
+
+
+def _heatmap_svg(dm, order_names):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    where = {x: i for i, x in enumerate(dm.names)}
+    missing = [x for x in order_names if x not in where]
+    if missing or len(where) != len(order_names):
+        raise ValueError(f"the tree and the distance matrix hold different taxa (e.g. {missing[:3]})")
+    idx = np.array([where[x] for x in order_names], dtype=np.int64)
+    values = np.asarray(dm.values, dtype=np.float64)[np.ix_(idx, idx)]
+    n = idx.size
+    labelled = n <= 60
+    side = 6.5 if labelled else 6.0
+    fig = Figure(figsize=(side + 1.2, side))
+    FigureCanvasAgg(fig)
+    ax = fig.add_axes((0.3 if labelled else 0.08, 0.3 if labelled else 0.08, 0.55 if labelled else 0.75,
+                       0.62 if labelled else 0.86))
+    im = ax.imshow(values, cmap="cividis", interpolation="nearest", aspect="equal")
+    if labelled:
+        font = max(3.0, min(7.0, 300.0 / max(n, 1)))
+        ax.set_xticks(range(n))
+        ax.set_yticks(range(n))
+        ax.set_xticklabels(order_names, rotation=90, fontsize=font)
+        ax.set_yticklabels(order_names, fontsize=font)
+    else:
+        ax.set_xticks([])
+        ax.set_yticks([])
+        ax.set_xlabel(f"{n} taxa in tree order (top to bottom, left to right)", fontsize=8)
+    cb = fig.colorbar(im, ax=ax, fraction=0.05, pad=0.03)
+    cb.set_label("distance" + (f" ({dm.info['model']})" if dm.info.get("model") else ""), fontsize=8)
+    cb.ax.tick_params(labelsize=7)
+    return _svg(fig, "cladewright-heatmap")
+
+
+def _histogram_svg(values, threshold):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    from .draw import INK, LOW
+
+    fig = Figure(figsize=(6.0, 2.8))
+    FigureCanvasAgg(fig)
+    ax = fig.add_axes((0.1, 0.2, 0.86, 0.72))
+    edges = np.linspace(0.0, 100.0, 21)
+    counts, _ = np.histogram(np.clip(values, 0.0, 100.0), bins=edges)
+    colours = [LOW if threshold is not None and hi <= threshold else INK for hi in edges[1:]]
+    ax.bar(edges[:-1], counts, width=5.0, align="edge", color=colours, edgecolor="white", linewidth=0.6)
+    ax.set_xlim(0, 100)
+    ax.set_xlabel("support (%)", fontsize=8)
+    ax.set_ylabel("internal branches", fontsize=8)
+    ax.tick_params(labelsize=7)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+    return _svg(fig, "cladewright-histogram")
+
+
+def _fmt(value):
+    if isinstance(value, float):
+        return f"{value:.6g}"
+    if isinstance(value, (list, tuple)):
+        return ", ".join(_fmt(v) for v in value)
+    return str(value)
+
+
+def _rows(pairs):
+    out = ["<table>"]
+    for key, value in pairs:
+        out.append(f"<tr><th>{html.escape(str(key))}</th><td>{html.escape(_fmt(value))}</td></tr>")
+    out.append("</table>")
+    return "\n".join(out)
+
+
+def _derived_warnings(alignment, dm, info):
+    found = []
+    sat = dm.info.get("saturated") or 0
+    if sat:
+        pairs = dm.info.get("saturated_pairs") or []
+        shown = "; ".join(f"{a} – {b}" for a, b in pairs[:10]) + (f" and {len(pairs) - 10} more" if len(pairs) > 10
+                                                                    else "")
+        cap = dm.info.get("cap")
+        found.append(f"{sat} saturated pair(s): distance undefined under the model"
+                     + (f", set to {cap:.6g}" if cap is not None else "") + (f" ({shown})" if shown else ""))
+    neg = info.get("negative_branches") or 0
+    if neg:
+        rule = info.get("negative")
+        what = {"zero": "set to zero", "keep": "kept as they are"}.get(rule, "see the settings")
+        found.append(f"{neg} branch length(s) came out negative ({what})")
+    if alignment is not None and alignment.n_sites:
+        share = (alignment.states < alignment.n_states).mean(axis=1)
+        for i in np.flatnonzero(share < LITTLE_DATA).tolist():
+            found.append(f"sequence {alignment.names[i]} has unambiguous states at only {100 * share[i]:.0f}% "
+                         f"of the {alignment.n_sites} sites")
+    return found
+
+
+def report_html(*, alignment=None, dm, tree, info=None, command_line="", warnings=None, support_values=None,
+                highlight_below=70.0, title="cladewright report"):
+    """The report as one HTML string (see :func:`write_report`)."""
+    from .draw import tree_figure
+    from .textdraw import tree_layout
+
+    info = dict(info or {})
+    if not isinstance(command_line, str):
+        command_line = shlex.join(str(x) for x in command_line)
+    if support_values is None:
+        s = np.asarray(tree.support, dtype=np.float64)
+        support_values = s[np.isfinite(s)]
+    support_values = np.asarray(support_values, dtype=np.float64).reshape(-1)
+    support_values = support_values[np.isfinite(support_values)]
+    all_warnings = []
+    for w in list(warnings or []) + _derived_warnings(alignment, dm, info):
+        if w not in all_warnings:
+            all_warnings.append(w)
+
+    esc = html.escape
+    when = _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat()
+    parts = [f"<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>{esc(title)}</title>\n"
+             f"<style>{_CSS}</style>\n</head>\n<body>\n<header><h1>{esc(title)}</h1>"
+             f"<p class=\"sub\">{tree.n_leaves} taxa · made {esc(when)}</p></header>"]
+    parts.append(f"<section id=\"caution\" class=\"caution\"><h2>Caution</h2><p>{esc(CAUTION)}</p></section>")
+
+    rows = []
+    if alignment is not None:
+        s = alignment.summary()
+        rows += [("taxa", s["taxa"]), ("sites", s["sites"]), ("alphabet", s["alphabet"]),
+                 ("distinct site patterns", s["patterns"]), ("gaps", f"{100 * s['gap_fraction']:.2f}% of cells"),
+                 ("missing or ambiguous", f"{100 * s['missing_fraction']:.2f}% of cells")]
+        if s.get("least_data"):
+            name, share = s["least_data"]
+            rows.append(("least data", f"{name} ({100 * share:.0f}% unambiguous)"))
+        rows.append(("source", alignment.source))
+    else:
+        rows.append(("taxa", len(dm.names)))
+        rows.append(("input", "a distance matrix (no alignment)"))
+    parts.append(f"<section id=\"input\"><h2>Input</h2>{_rows(rows)}</section>")
+
+    settings = [(k, v) for k, v in dm.info.items() if k not in ("saturated_pairs",)]
+    settings += [(k, v) for k, v in info.items() if k not in ("fit_name", "fit_value") and k not in dm.info]
+    parts.append(f"<section id=\"settings\"><h2>Settings</h2>{_rows(settings)}"
+                 f"<p>Command line:</p><pre id=\"command-line\">{esc(command_line)}</pre></section>")
+
+    fit = [(info["fit_name"], info["fit_value"])] if info.get("fit_name") else [("fit statistic", "not computed")]
+    x, y, kids, leaf_rows, _ = tree_layout(tree, True)
+    order_names = [tree.leaf_names[i] for i in leaf_rows.tolist()]
+    tree_svg = _svg(tree_figure(tree, highlight_below=highlight_below), "cladewright-tree")
+    parts.append(f"<section id=\"tree\"><h2>Tree</h2>{_rows(fit)}<div class=\"fig\">{tree_svg}</div>"
+                 f"<details><summary>Newick</summary><pre>{esc(tree.to_newick())}</pre></details></section>")
+
+    if support_values.size:
+        summary = f"{support_values.size} internal branches; median {np.median(support_values):.0f}%"
+        if highlight_below is not None:
+            low = int(np.count_nonzero(support_values < highlight_below))
+            summary += f"; {low} below {highlight_below:g}%"
+        parts.append(f"<section id=\"support\"><h2>Support</h2><p>{esc(summary)}</p>"
+                     f"<div class=\"fig\">{_histogram_svg(support_values, highlight_below)}</div></section>")
+    else:
+        parts.append("<section id=\"support\"><h2>Support</h2><p>No support values (no bootstrap was run).</p>"
+                     "</section>")
+
+    parts.append(f"<section id=\"distances\"><h2>Distances</h2><p>Pairwise distances, rows and columns in the "
+                 f"tree's leaf order (top to bottom).</p><div class=\"fig\">{_heatmap_svg(dm, order_names)}</div>"
+                 f"</section>")
+
+    if all_warnings:
+        items = "".join(f"<li>{esc(w)}</li>" for w in all_warnings)
+        parts.append(f"<section id=\"warnings\"><h2>Warnings</h2><ul class=\"warn\">{items}</ul></section>")
+    else:
+        parts.append("<section id=\"warnings\"><h2>Warnings</h2><p>None.</p></section>")
+
+    parts.append(f"<section id=\"software\"><h2>Software</h2>{_rows(software_versions().items())}</section>")
+    parts.append("</body>\n</html>\n")
+    return "\n".join(parts)
+
+
+def write_report(path, *, alignment=None, dm, tree, info=None, command_line="", warnings=None,
+                 support_values=None, highlight_below=70.0, title="cladewright report"):
+    """Write the HTML report of a run, atomically.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+    alignment : Alignment, optional
+        The input alignment (absent when the run started from a matrix).
+    dm : DistanceMatrix
+        Its ``info`` (model, sites used, saturated pairs...) is reported.
+    tree : Tree
+        The final tree, with support.
+    info : dict, optional
+        Settings and results of the run (method, replicates, seed,
+        ``fit_name``/``fit_value``, ``negative_branches``...), shown as given.
+    command_line : str or sequence of str
+        The exact command line (a sequence is shell-quoted).
+    warnings : sequence of str, optional
+        Warnings raised during the run; saturated pairs, negative branch
+        lengths and sequences with little data are added from ``dm.info``,
+        ``info`` and ``alignment``.
+    support_values : array_like, optional
+        Support of the internal branches, for the histogram; default the
+        tree's finite support values.
+    highlight_below : float, optional
+        Support threshold marked in the figures (default 70).
+    title : str
+
+    References
+    ----------
+    Felsenstein (1985) Evolution 39:783-791; Sokal & Rohlf (1962) Taxon
+    11:33-40; Fitch & Margoliash (1967) Science 155:279-284.
+    """
+    from .io.files import write_text_atomic
+
+    text = report_html(alignment=alignment, dm=dm, tree=tree, info=info, command_line=command_line,
+                       warnings=warnings, support_values=support_values, highlight_below=highlight_below,
+                       title=title)
+    write_text_atomic(path, text)

@@ -1,0 +1,349 @@
+"""Rooting a tree: at the midpoint of its longest leaf-to-leaf path, or on the
+branch that separates an outgroup.
+
+Both work on the unrooted tree: a stored root of degree 2 is first dissolved
+(its two branches become one, lengths added) and a root with a single child
+is dropped, so rooting an already rooted tree again moves its root. The new
+root is a node of degree 2 placed on one branch, which is cut in two; the
+branches on the path from that branch to the old root change direction.
+
+Support belongs to branches (to the split a branch makes), not to nodes: when
+a branch changes direction its support and length move with it to the node
+now below it, so every split keeps its support. The two halves of the cut
+branch make one split and both carry its support. Non-numeric internal labels
+stay with their nodes; a label on a dissolved root is dropped.
+
+References
+----------
+Robinson, D. F. & Foulds, L. R. (1981) Comparison of phylogenetic trees.
+Math. Biosci. 53:131-147 (splits of an unrooted tree).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .errors import InputError
+from .tree import Tree
+
+__all__ = ["midpoint_root", "outgroup_root", "root_tree"]
+
+
+def _first_finite(a, b):
+    return a if a == a else b
+
+
+def _unrooted_arrays(tree):
+    """The tree with its root dissolved, as arrays over the original node ids.
+
+    Returns
+    -------
+    par : int64 array (m,)
+        Neighbour towards the new top node, -1 for the top and for dead nodes.
+    length, support : float64 arrays (m,)
+        Of the branch from each node to ``par``.
+    alive : bool array (m,)
+        False for dissolved root nodes.
+    post : int64 array
+        Live nodes, children before parents (a postorder of ``par``).
+    """
+    n = tree.n_leaves
+    par = tree.parent.copy()
+    length = np.array(tree.length, dtype=np.float64)
+    support = np.array(tree.support, dtype=np.float64)
+    alive = np.ones(tree.n_nodes, dtype=bool)
+    root = tree.root
+    kids = tree.children(root)
+    while root >= n and kids.size == 1:
+        # A root with one child has no meaning on an unrooted tree.
+        alive[root] = False
+        root = int(kids[0])
+        par[root] = -1
+        length[root] = support[root] = np.nan
+        kids = tree.children(root)
+    if root >= n and kids.size == 2:
+        a, b = int(kids[0]), int(kids[1])
+        alive[root] = False
+        # b finishes after a in postorder, so making b the top keeps the
+        # stored postorder valid (children before parents).
+        la, lb = length[a], length[b]
+        par[b] = -1
+        par[a] = b
+        length[a] = np.nan if (la != la and lb != lb) else np.nansum([la, lb])
+        # Tree.splits reports a root split under the first child: prefer it.
+        support[a] = _first_finite(support[a], support[b])
+        length[b] = support[b] = np.nan
+    post = tree.postorder()
+    post = post[alive[post]]
+    return par, length, support, alive, post
+
+
+def _cut(tree, arrays, u, x):
+    """A rooted Tree with its root on the branch from ``u`` to ``par[u]``, at
+    distance ``x`` from ``u`` (``x`` nan when the branch has no length)."""
+    par, length, support, alive, _ = arrays
+    n, m = tree.n_leaves, tree.n_nodes
+    w = int(par[u])
+    total = length[u]
+    new_par = np.append(par, -1)
+    new_len = np.append(length, np.nan)
+    new_sup = np.append(support, np.nan)
+    # The path from w up to the top changes direction: each node hangs from
+    # the one it used to be the parent of, taking that branch's length and
+    # support with it.
+    path = [w]
+    p = int(par[w])
+    while p >= 0:
+        path.append(p)
+        p = int(par[p])
+    path = np.array(path, dtype=np.int64)
+    new_par[path[1:]] = path[:-1]
+    new_len[path[1:]] = length[path[:-1]]
+    new_sup[path[1:]] = support[path[:-1]]
+    r = m
+    new_par[u] = new_par[w] = r
+    if total == total:
+        x = min(max(float(x), 0.0), float(total))
+        new_len[u], new_len[w] = x, float(total) - x
+    else:
+        new_len[u] = new_len[w] = np.nan
+    new_sup[u] = new_sup[w] = support[u]
+    internal = np.flatnonzero(alive[n:]) + n
+    keep = np.concatenate([np.arange(n), internal, [r]])
+    index = np.full(m + 1, -1, dtype=np.int64)
+    index[keep] = np.arange(keep.size)
+    parent = np.where(new_par[keep] >= 0, index[new_par[keep]], -1)
+    old_labels = list(tree.labels) + [None]
+    labels = [old_labels[v] for v in keep.tolist()]
+    return Tree(parent, new_len[keep], tree.leaf_names, support=new_sup[keep], labels=labels, rooted=True)
+
+
+def _need_two(tree, what):
+    if tree.n_leaves < 2:
+        raise InputError(f"{what} needs a tree of at least 2 leaves, this one has {tree.n_leaves}")
+
+
+def midpoint_root(tree):
+    """Root a tree halfway along its longest leaf-to-leaf path.
+
+    Parameters
+    ----------
+    tree : Tree
+        Rooted or unrooted; a stored root is dissolved first. Missing branch
+        lengths count as 0 (at least one length must be given).
+
+    Returns
+    -------
+    Tree
+        ``rooted=True``, a root of degree 2 on the branch holding the
+        midpoint; the deepest leaf on each side lies at half the diameter.
+
+    Notes
+    -----
+    O(n): one postorder pass keeps, for every node, the two longest paths
+    down to a leaf through different children; the diameter is the largest
+    sum of such a pair (exact for any signs of the lengths). Ties go to the
+    first pair found in postorder. With negative lengths the root goes on
+    the first branch, walking from the farther end, where the running
+    length reaches half the diameter.
+
+    References
+    ----------
+    Midpoint rooting: common practice. Splits: Robinson & Foulds (1981)
+    Math. Biosci. 53:131-147.
+
+    Example
+    -------
+    >>> t = Tree([3, 3, 3, -1], [1.0, 1.0, 4.0, np.nan], ["a", "b", "c"])
+    >>> midpoint_root(t).to_newick()
+    '((a:1.0,b:1.0):1.5,c:2.5);\\n'
+    """
+    _need_two(tree, "midpoint rooting")
+    if not np.any(np.isfinite(tree.length)):
+        raise InputError("the tree has no branch lengths, so it has no midpoint; root it on an outgroup instead")
+    arrays = _unrooted_arrays(tree)
+    par, length, _, _, post = arrays
+    n, m = tree.n_leaves, tree.n_nodes
+    ln = np.nan_to_num(length, nan=0.0).tolist()
+    best1 = [0.0 if v < n else -math.inf for v in range(m)]
+    best2 = [-math.inf] * m
+    leaf1 = [v if v < n else -1 for v in range(m)]
+    leaf2 = [-1] * m
+    p_list = par.tolist()
+    top = (-math.inf, -1, -1, -1)
+    for v in post.tolist():
+        b2 = best2[v]
+        if b2 > -math.inf and best1[v] + b2 > top[0]:
+            top = (best1[v] + b2, leaf1[v], leaf2[v], v)
+        p = p_list[v]
+        if p < 0:
+            continue
+        c = best1[v] + ln[v]
+        if c > best1[p]:
+            best2[p], leaf2[p] = best1[p], leaf1[p]
+            best1[p], leaf1[p] = c, leaf1[v]
+        elif c > best2[p]:
+            best2[p], leaf2[p] = c, leaf1[v]
+    diameter, end1, end2, apex = top
+    half = diameter / 2.0
+    # Walk up from the end with the longer path to the apex (unless that end
+    # is the apex itself, a leaf at the top): the running sum reaches half
+    # the diameter by the apex, since that path is at least half of it.
+    u, run = (end1 if end1 != apex else end2), 0.0
+    while True:
+        step = ln[u]
+        if run + step >= half or p_list[u] == apex:
+            break
+        run += step
+        u = p_list[u]
+    return _cut(tree, arrays, u, half - run)
+
+
+def _resolve_names(tree, taxa):
+    """Leaf indices of ``taxa``; an exact name first, else the name with '_'
+    and ' ' exchanged (Newick reads an unquoted '_' as a blank)."""
+    names = tree.leaf_names
+    lookup = {x: i for i, x in enumerate(names)}
+    found, unknown = [], []
+    for t in taxa:
+        t = t.strip()
+        if not t:
+            continue
+        for cand in (t, t.replace("_", " "), t.replace(" ", "_")):
+            if cand in lookup:
+                found.append(lookup[cand])
+                break
+        else:
+            unknown.append(t)
+    if unknown:
+        shown = ", ".join(repr(x) for x in unknown[:5]) + (f" and {len(unknown) - 5} more" if len(unknown) > 5 else "")
+        raise InputError(f"outgroup taxon {shown} is not in the tree; check the spelling against the tree's leaf names")
+    found = sorted(set(found))
+    if not found:
+        raise InputError("the outgroup is empty; give one or more taxon names separated by commas")
+    if len(found) == tree.n_leaves:
+        raise InputError("the outgroup holds every taxon of the tree; leave at least one taxon out of it")
+    return np.array(found, dtype=np.int64)
+
+
+def outgroup_root(tree, taxa):
+    """Root a tree on the branch that separates an outgroup from the rest.
+
+    Parameters
+    ----------
+    tree : Tree
+        Rooted or unrooted; a stored root is dissolved first.
+    taxa : str or sequence of str
+        Outgroup taxon names (one name, or several). The outgroup must be one
+        side of a split of the unrooted tree; a single taxon always is.
+
+    Returns
+    -------
+    Tree
+        ``rooted=True``, with a root of degree 2 halfway along the branch
+        separating the outgroup.
+
+    Raises
+    ------
+    InputError
+        A name not in the tree, an empty outgroup or one holding every taxon,
+        or an outgroup that is not a clade of the unrooted tree (the message
+        names the taxa that break it: those in the smallest side of a split
+        that holds the whole outgroup).
+
+    References
+    ----------
+    Splits of an unrooted tree: Robinson & Foulds (1981) Math. Biosci.
+    53:131-147. Outgroup rooting: common practice.
+
+    Example
+    -------
+    >>> t = Tree([4, 4, 5, 5, 5, -1], [1.0, 1.0, 1.0, 1.0, 2.0, np.nan], list("abcd"))
+    >>> outgroup_root(t, ["c"]).to_newick()
+    '(((a:1.0,b:1.0):2.0,d:1.0):0.5,c:0.5);\\n'
+    """
+    _need_two(tree, "outgroup rooting")
+    if isinstance(taxa, str):
+        taxa = [taxa]
+    out = _resolve_names(tree, taxa)
+    n, k = tree.n_leaves, out.size
+    arrays = _unrooted_arrays(tree)
+    par, length, _, _, post = arrays
+    size = np.zeros(tree.n_nodes, dtype=np.int64)
+    size[:n] = 1
+    hits = np.zeros(tree.n_nodes, dtype=np.int64)
+    hits[out] = 1
+    p_list = par.tolist()
+    size_l, hits_l = size.tolist(), hits.tolist()
+    for v in post.tolist():
+        p = p_list[v]
+        if p >= 0:
+            size_l[p] += size_l[v]
+            hits_l[p] += hits_l[v]
+    size, hits = np.array(size_l), np.array(hits_l)
+    post_has_parent = post[par[post] >= 0]
+    s, h = size[post_has_parent], hits[post_has_parent]
+    clade = ((h == k) & (s == k)) | ((h == 0) & (s == n - k))
+    if np.any(clade):
+        u = int(post_has_parent[np.argmax(clade)])
+        return _cut(tree, arrays, u, length[u] / 2.0)
+    _not_a_clade(tree, arrays, out, size, hits, post_has_parent)
+
+
+def _not_a_clade(tree, arrays, out, size, hits, edges):
+    """Raise the error naming the taxa that keep ``out`` from being a clade."""
+    par, _, _, _, post = arrays
+    n, k = tree.n_leaves, out.size
+    s, h = size[edges], hits[edges]
+    below = np.where(h == k, s - k, n + 1)      # the side under the branch holds the outgroup
+    above = np.where(h == 0, n - s - k, n + 1)  # the side over it does
+    i_b, i_a = int(np.argmin(below)), int(np.argmin(above))
+    u = int(edges[i_b] if below[i_b] <= above[i_a] else edges[i_a])
+    # Leaves under u: mark u, then every node whose parent is marked.
+    mark = np.zeros(tree.n_nodes, dtype=bool)
+    mark[u] = True
+    p_list = par.tolist()
+    mark_l = mark.tolist()
+    for v in post[::-1].tolist():
+        p = p_list[v]
+        if p >= 0 and mark_l[p]:
+            mark_l[v] = True
+    side = np.array(mark_l[:n])
+    if below[i_b] > above[i_a]:
+        side = ~side
+    side[out] = False
+    names = tree.leaf_names
+    extra = [names[i] for i in np.flatnonzero(side)]
+    group = ", ".join(names[i] for i in out[:5]) + (f" and {k - 5} more" if k > 5 else "")
+    shown = ", ".join(extra[:8]) + (f" and {len(extra) - 8} more" if len(extra) > 8 else "")
+    raise InputError(f"the outgroup ({group}) is not a clade of the unrooted tree; taxa that break it: {shown} "
+                     f"(the smallest clade holding the outgroup also holds them); add them to the outgroup "
+                     f"or choose another outgroup")
+
+
+def root_tree(tree, spec):
+    """Root a tree as the ``--root`` option asks.
+
+    Parameters
+    ----------
+    tree : Tree
+    spec : str
+        ``"midpoint"``, or a comma-separated list of outgroup taxa.
+
+    Returns
+    -------
+    Tree
+        See :func:`midpoint_root` and :func:`outgroup_root`.
+
+    References
+    ----------
+    Robinson & Foulds (1981) Math. Biosci. 53:131-147 (splits).
+    """
+    text = (spec or "").strip()
+    if not text:
+        raise InputError("empty root specification; give 'midpoint' or outgroup taxa separated by commas")
+    if text.lower() == "midpoint":
+        return midpoint_root(tree)
+    return outgroup_root(tree, text.split(","))

@@ -1,0 +1,241 @@
+"""A tree drawn in text for the terminal, with support values.
+
+One line per leaf. Horizontal runs are branches, to scale; an internal branch
+too short to hold its support value is stretched to fit it (the drawing says
+so under the scale line). Box-drawing characters by default, plain ASCII on
+request. Everything is iterative, so very deep trees draw too.
+
+Also the child ordering shared with :mod:`cladewright.draw`: ladderized
+(smaller clades above larger ones) or as stored.
+"""
+
+from __future__ import annotations
+
+import math
+import shutil
+
+import numpy as np
+
+__all__ = ["text_tree", "child_lists", "tree_layout", "nice_length"]
+
+_BOX = {"h": "─", "v": "│", "first": "┌", "last": "└", "mid": "├", "node": "┤",
+        "node_first": "┬", "node_last": "┴", "node_mid": "┼", "root": "─"}
+_ASCII = {"h": "-", "v": "|", "first": "+", "last": "+", "mid": "+", "node": "+",
+          "node_first": "+", "node_last": "+", "node_mid": "+", "root": "-"}
+
+
+def child_lists(tree, ladderize=True):
+    """Children of every node in drawing order.
+
+    Parameters
+    ----------
+    tree : Tree
+    ladderize : bool
+        Order siblings by the number of leaves below them, fewest first
+        (ties keep the stored order); else the stored order.
+
+    Returns
+    -------
+    list of list of int, length m
+    """
+    kids = [tree.children(v).tolist() for v in range(tree.n_nodes)]
+    if ladderize:
+        count = tree.leaf_counts().tolist()
+        for v in range(tree.n_leaves, tree.n_nodes):
+            kids[v].sort(key=count.__getitem__)
+    return kids
+
+
+def tree_layout(tree, ladderize=True):
+    """Coordinates for a rectangular drawing.
+
+    Parameters
+    ----------
+    tree : Tree
+    ladderize : bool
+        See :func:`child_lists`.
+
+    Returns
+    -------
+    x : float64 array (m,)
+        Path length from the root (missing lengths count as 0; when no branch
+        has a length, every branch counts as 1: a cladogram).
+    y : float64 array (m,)
+        Leaves on rows 0..n-1 from the top; an internal node halfway between
+        its first and last child.
+    kids : list of list of int
+        Children in drawing order.
+    leaf_rows : int64 array (n,)
+        The leaves from top to bottom.
+    has_lengths : bool
+    """
+    n, m = tree.n_leaves, tree.n_nodes
+    kids = child_lists(tree, ladderize)
+    has_lengths = bool(np.any(np.isfinite(tree.length[np.arange(m) != tree.root])))
+    ln = np.nan_to_num(np.asarray(tree.length, dtype=np.float64), nan=0.0) if has_lengths else np.ones(m)
+    ln = ln.tolist()
+    x = [0.0] * m
+    y = [0.0] * m
+    order = []
+    stack = [tree.root]
+    while stack:
+        v = stack.pop()
+        order.append(v)
+        for c in kids[v]:
+            x[c] = x[v] + ln[c]
+        stack.extend(reversed(kids[v]))
+    rows = [v for v in order if v < n]
+    for i, v in enumerate(rows):
+        y[v] = float(i)
+    for v in reversed(order):
+        if v >= n and kids[v]:
+            y[v] = 0.5 * (y[kids[v][0]] + y[kids[v][-1]])
+    return np.array(x), np.array(y), kids, np.array(rows, dtype=np.int64), has_lengths
+
+
+def nice_length(span):
+    """A round length (1, 2 or 5 times a power of ten) near a fifth of ``span``."""
+    if not span > 0 or not math.isfinite(span):
+        return 0.0
+    target = span / 5.0
+    base = 10.0 ** math.floor(math.log10(target))
+    for f in (5.0, 2.0, 1.0):
+        if f * base <= target:
+            return f * base
+    return base
+
+
+def _support_text(value):
+    if value != value:
+        return ""
+    r = round(value)
+    return str(int(r)) if abs(value - r) < 0.05 else f"{value:.1f}"
+
+
+def text_tree(tree, width=None, *, ascii=False, ladderize=True, support=True):
+    """The tree as text lines, to print on a terminal.
+
+    Parameters
+    ----------
+    tree : Tree
+    width : int, optional
+        Columns for the branches (the labels come after); default from the
+        terminal's width, between 20 and 100. Every branch takes at least
+        one column, so a very deep tree (a long caterpillar) is wider.
+    ascii : bool
+        Use ``- | +`` instead of box-drawing characters.
+    ladderize : bool
+        Smaller clades above larger ones.
+    support : bool
+        Write support values on the branches above internal nodes.
+
+    Returns
+    -------
+    str
+        Lines ending in ``"\\n"``: one per leaf, then a scale bar when the
+        tree has branch lengths (or a note that it is a cladogram).
+
+    References
+    ----------
+    Layout: common practice (rectangular phylogram).
+
+    Example
+    -------
+    >>> from cladewright.tree import Tree
+    >>> t = Tree([3, 3, 4, 4, -1], [1.0, 1.0, 2.0, 1.0, np.nan], list("abc"), rooted=True)
+    >>> print(text_tree(t, width=12, ascii=True), end="")
+    -+---------- c
+     +----+----- a
+          +----- b
+     |----| 1 substitutions per site
+    """
+    ch = _ASCII if ascii else _BOX
+    n, m = tree.n_leaves, tree.n_nodes
+    x, y, kids, rows, has_lengths = tree_layout(tree, ladderize)
+    names = tree.leaf_names
+    sup = tree.support.tolist()
+    root = tree.root
+    labels = [""] * m
+    if support:
+        for v in range(n, m):
+            if v != root:
+                labels[v] = _support_text(sup[v])
+        root_kids = kids[root]
+        if len(root_kids) == 2 and labels[root_kids[0]] and labels[root_kids[0]] == labels[root_kids[1]]:
+            # The two branches at a degree-2 root are one split: label the lower one only.
+            labels[root_kids[0]] = ""
+    if width is None:
+        cols = shutil.get_terminal_size((100, 24)).columns
+        longest = max(len(s) for s in names)
+        width = max(20, min(100, cols - longest - 3))
+    width = max(4, int(width))
+    span = float(x.max()) if m > 1 else 0.0
+    scale = (width - 2) / span if span > 0 else 0.0
+    # Columns: every branch at least 1 wide, and wide enough for its label.
+    col = [0] * m
+    stretched = False
+    order = []
+    stack = [root]
+    x_l = x.tolist()
+    while stack:
+        v = stack.pop()
+        order.append(v)
+        for c in kids[v]:
+            want = int(round(x_l[c] * scale)) - int(round(x_l[v] * scale))
+            need = len(labels[c]) + 3 if labels[c] else 1
+            if want < need:
+                stretched = stretched or bool(labels[c])
+                want = need
+            col[c] = col[v] + want
+        stack.extend(kids[v])
+    # Rows: leaves one per line from the top; an internal node on the row of
+    # the middle of its first and last child (rounded up the page).
+    row_of = [0] * m
+    for i, leaf in enumerate(rows.tolist()):
+        row_of[leaf] = i
+    for v in reversed(order):
+        if v >= n:
+            row_of[v] = (row_of[kids[v][0]] + row_of[kids[v][-1]]) // 2
+    total_cols = max(col) + 1
+    grid = [[" "] * total_cols for _ in range(n)]
+    for v in order:
+        if v < n:
+            continue
+        r, c0 = row_of[v], col[v]
+        ks = kids[v]
+        top, bottom = row_of[ks[0]], row_of[ks[-1]]
+        for r2 in range(top + 1, bottom):
+            grid[r2][c0] = ch["v"]
+        for i, k in enumerate(ks):
+            rk = row_of[k]
+            kind = "first" if i == 0 else "last" if i == len(ks) - 1 else "mid"
+            if len(ks) == 1:
+                grid[rk][c0] = ch["h"]
+            else:
+                grid[rk][c0] = ch["node_" + kind] if rk == r else ch[kind]
+            # a leaf's line runs through its own column, so it shows at least one dash
+            for c in range(c0 + 1, col[k] + (1 if k < n else 0)):
+                grid[rk][c] = ch["h"]
+            if labels[k]:
+                start = col[k] - len(labels[k]) - 1  # one dash either side
+                for j, s in enumerate(labels[k]):
+                    grid[rk][start + j] = s
+        if all(row_of[k] != r for k in ks):
+            grid[r][c0] = ch["node"]
+    rr = row_of[root]
+    lines = []
+    for r in range(n):
+        # A branch leads into the root from the left margin.
+        stub = ch["root"] if r == rr else " "
+        lines.append(stub + "".join(grid[r]).rstrip() + " " + names[int(rows[r])])
+    if has_lengths and scale > 0:
+        # A bar of a round length, a fifth of the tree or at least 6 columns.
+        bar = nice_length(5.0 * max(span / 5.0, 6.0 / scale))
+        cols_bar = max(2, int(round(bar * scale)))
+        ends = ("|", "|") if ascii else ("├", "┤")
+        # the bar's end marks stand on the columns cols_bar apart
+        lines.append(" " + ends[0] + ch["h"] * (cols_bar - 1) + ends[1] + f" {bar:g} substitutions per site"
+                     + (" (some branches stretched to fit their support value)" if stretched else ""))
+    elif not has_lengths:
+        lines.append("no branch lengths: drawn as a cladogram")
+    return "\n".join(lines) + "\n"
