@@ -1,0 +1,124 @@
+"""Trees from distance matrices: linkage (UPGMA, WPGMA, single, complete),
+neighbour joining and BIONJ.
+
+References
+----------
+Lance & Williams (1967) Computer Journal 9:373–380; Sokal & Michener (1958);
+Saitou & Nei (1987) Mol. Biol. Evol. 4:406–425; Studier & Keppler (1988)
+Mol. Biol. Evol. 5:729–731; Gascuel (1997) Mol. Biol. Evol. 14:685–695.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError
+from .fit import fit_statistic
+from .linkage import LINKAGE_METHODS, linkage_arrays
+from .nj import nj_arrays
+
+__all__ = ["METHODS", "LINKAGE_METHODS", "build_tree", "build_tree_with_info", "fit_statistic",
+           "linkage_arrays", "nj_arrays"]
+
+#: Every method name build_tree accepts.
+METHODS = ("upgma", "wpgma", "single", "complete", "nj", "bionj")
+NEGATIVE = ("zero", "keep")
+
+
+def build_tree_with_info(dm, method="nj", negative="zero", *, source=None, fit=True):
+    """Build a tree and report on it.
+
+    Parameters
+    ----------
+    dm : cladewright.matrix.DistanceMatrix
+        Names and distances (float64 or float32); not modified.
+    method : str
+        One of :data:`METHODS` (case-insensitive). Linkage methods give a
+        rooted ultrametric tree; nj and bionj an unrooted tree with a basal
+        trifurcation.
+    negative : {"zero", "keep"}
+        What to do with negative branch lengths from nj/bionj: set them to
+        zero (default) or keep them. Linkage trees never have any.
+    source : str, optional
+        File name to put in error messages.
+    fit : bool
+        Compute the fit statistic (an O(n^2) pass over the path lengths);
+        without it ``fit_name`` and ``fit_value`` are None.
+
+    Returns
+    -------
+    tree : cladewright.tree.Tree
+    info : dict
+        ``negative_branches`` (int, how many computed lengths were < 0, before
+        any zeroing), ``fit_name`` and ``fit_value`` (see :func:`fit_statistic`),
+        ``method``.
+
+    References
+    ----------
+    See :mod:`cladewright.build.linkage` and :mod:`cladewright.build.nj`.
+    """
+    from ..tree import Tree
+
+    m = str(method).lower()
+    if m not in METHODS:
+        raise InputError(f"unknown tree method {method!r}; choose one of {', '.join(METHODS)}",
+                         source=source)
+    if negative not in NEGATIVE:
+        raise InputError(f"unknown negative-length rule {negative!r}; choose 'zero' or 'keep'",
+                         source=source)
+    names = tuple(dm.names)
+    n = len(names)
+    values = dm.values
+    # Matrices made without validation (e.g. by the distance engine) could
+    # still carry an undefined distance; the kernels need finite numbers.
+    if not np.isfinite(values).all():
+        i, j = np.argwhere(~np.isfinite(values))[0]
+        raise InputError(f"distance {names[i]!r}-{names[j]!r} is {float(values[i, j])!r}; every distance must be "
+                         "finite (use a model that does not saturate, or drop the pair's taxa)", source=source)
+    if m in LINKAGE_METHODS:
+        if n < 2:
+            raise InputError(f"{m} needs at least 2 taxa but the matrix has {n}; add taxa to the input",
+                             source=source)
+        parent, length, _ = linkage_arrays(values, m)
+        rooted = True
+    else:
+        if n < 3:
+            raise InputError(f"{m} needs at least 3 taxa but the matrix has {n}; add taxa or use a "
+                             "linkage method (upgma, wpgma, single, complete)", source=source)
+        parent, length = nj_arrays(values, bionj=(m == "bionj"))
+        rooted = False
+    neg = length < 0
+    n_neg = int(np.count_nonzero(neg))
+    if negative == "zero" and n_neg:
+        length[neg] = 0.0
+    tree = Tree(parent, length, names, rooted=rooted)
+    fit_name = fit_value = None
+    if fit:
+        fit_name, fit_value = fit_statistic(tree, dm, method=m)
+    info = {"method": m, "negative_branches": n_neg, "fit_name": fit_name, "fit_value": fit_value}
+    return tree, info
+
+
+def build_tree(dm, method="nj", negative="zero", *, source=None):
+    """Build a tree from a distance matrix (see :func:`build_tree_with_info`;
+    the fit statistic is skipped here, so replicates pay only for the tree).
+
+    Parameters
+    ----------
+    dm : cladewright.matrix.DistanceMatrix
+    method : str
+        upgma, wpgma, single, complete, nj (default) or bionj.
+    negative : {"zero", "keep"}
+
+    Returns
+    -------
+    cladewright.tree.Tree
+
+    Example
+    -------
+    >>> from cladewright.matrix import DistanceMatrix
+    >>> dm = DistanceMatrix("abc", [[0, 2, 4], [2, 0, 4], [4, 4, 0]])
+    >>> float(build_tree(dm, "upgma").patristic()[0, 2])
+    4.0
+    """
+    return build_tree_with_info(dm, method, negative, source=source, fit=False)[0]

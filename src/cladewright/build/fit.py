@@ -1,0 +1,123 @@
+"""How well a tree's path lengths fit the distances it was built from.
+
+References
+----------
+Sokal, R. R. & Rohlf, F. J. (1962) The comparison of dendrograms by objective
+methods. Taxon 11:33–40 (cophenetic correlation).
+Fitch, W. M. & Margoliash, E. (1967) Construction of phylogenetic trees.
+Science 155:279–284 (percent standard deviation).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError
+from ..kernels.patristic import upper_pearson, upper_relative_squares
+
+__all__ = ["fit_statistic", "cophenetic_correlation", "percent_standard_deviation",
+           "COPHENETIC", "PSD"]
+
+COPHENETIC = "cophenetic correlation"
+PSD = "percent standard deviation"
+_LINKAGE = ("upgma", "wpgma", "single", "complete")
+_JOINING = ("nj", "bionj")
+
+
+def cophenetic_correlation(patristic, distances):
+    """Pearson correlation of the pairs i < j of patristic and input distances.
+
+    Parameters
+    ----------
+    patristic, distances : float ndarray (n, n)
+        Same taxon order.
+
+    Returns
+    -------
+    float
+        r in [−1, 1]; nan when either side is constant or n < 3.
+
+    References
+    ----------
+    Sokal & Rohlf (1962) Taxon 11:33–40.
+    """
+    return float(upper_pearson(np.ascontiguousarray(patristic, dtype=np.float64),
+                               np.ascontiguousarray(distances, dtype=np.float64)))
+
+
+def percent_standard_deviation(patristic, distances):
+    """Fitch & Margoliash's percent standard deviation.
+
+    PSD = 100 * sqrt( sum_{i<j, d_ij != 0} ((d_ij − p_ij) / d_ij)^2 / N ),
+    N = the number of pairs i < j with d_ij != 0 (n(n−1)/2 when no distance
+    is zero): pairs at distance zero have no relative error and are left out
+    of both the sum and the count.
+
+    Parameters
+    ----------
+    patristic, distances : float ndarray (n, n)
+        Path lengths p and input distances d, same taxon order.
+
+    Returns
+    -------
+    float
+        PSD in percent; nan when every distance is zero.
+
+    References
+    ----------
+    Fitch & Margoliash (1967) Science 155:279–284.
+    """
+    total, cnt = upper_relative_squares(np.ascontiguousarray(distances, dtype=np.float64),
+                                        np.ascontiguousarray(patristic, dtype=np.float64))
+    if cnt == 0:
+        return float("nan")
+    return float(100.0 * np.sqrt(total / cnt))
+
+
+def fit_statistic(tree, dm, method=None):
+    """The fit of a tree to a distance matrix.
+
+    Parameters
+    ----------
+    tree : cladewright.tree.Tree
+        Its leaves must all be taxa of ``dm`` (any order).
+    dm : cladewright.matrix.DistanceMatrix
+    method : str, optional
+        The method that built the tree. Without it, a rooted tree is taken
+        for a linkage tree and an unrooted one for a joining tree.
+
+    Returns
+    -------
+    (name, value) : (str, float)
+        ("cophenetic correlation", r) for linkage trees (upgma, wpgma,
+        single, complete); ("percent standard deviation", psd) for nj and
+        bionj trees.
+
+    References
+    ----------
+    Sokal & Rohlf (1962); Fitch & Margoliash (1967).
+    """
+    names = tuple(dm.names)
+    leaves = tuple(tree.leaf_names)
+    values = np.asarray(dm.values)
+    if leaves != names:
+        pos = {x: i for i, x in enumerate(names)}
+        missing = [x for x in leaves if x not in pos]
+        if missing or len(leaves) != len(names):
+            what = f"taxon {missing[0]!r} is not in the matrix" if missing else \
+                f"the tree has {len(leaves)} leaves and the matrix {len(names)} taxa"
+            raise InputError(f"{what}; give the matrix the tree was built from")
+        idx = np.array([pos[x] for x in leaves], dtype=np.int64)
+        values = values[np.ix_(idx, idx)]
+    P = tree.patristic()
+    if method is None:
+        linkage = bool(tree.rooted)
+    else:
+        method = str(method).lower()
+        if method not in _LINKAGE + _JOINING:
+            raise InputError(f"unknown tree method {method!r}; choose one of "
+                             f"{', '.join(_LINKAGE + _JOINING)}")
+        linkage = method in _LINKAGE
+    if linkage:
+        return COPHENETIC, cophenetic_correlation(P, values)
+    return PSD, percent_standard_deviation(P, values)

@@ -1,0 +1,1 @@
+"""Compiled numba kernels: arrays in, arrays out, no I/O and no objects."""
