@@ -13,6 +13,9 @@ import numpy as np
 from . import __version__
 from .distances import MODELS
 from .errors import CladewrightError, InputError
+from .matrix import DistanceMatrix
+from .memory import check_fits
+from .support.resample import PRECISIONS
 
 MODEL_HELP = "\b\nModels (--model):\n" + "\n".join(
     f"  {name:<11} {spec.summary} ({spec.citation})" for name, spec in MODELS.items() if name != "protein-p")
@@ -87,6 +90,8 @@ def model_options(func):
                      help="Undefined (saturated) distances: stop, or set them to twice the largest defined one."),
         click.option("--alphabet", type=click.Choice(["dna", "protein"]), default=None,
                      help="Override the detected alphabet."),
+        click.option("--precision", type=click.Choice(["double", "single"]), default="double", show_default=True,
+                     help="Distance matrix in float64, or float32 for half the memory (very large runs)."),
     ]
     for option in reversed(options):
         func = option(func)
@@ -109,7 +114,7 @@ def check_output_not_input(output, *inputs):
 @model_options
 @click.pass_obj
 @guarded
-def distances(obj, alignment, output, model, gamma, gaps, freqs, saturated, alphabet):
+def distances(obj, alignment, output, model, gamma, gaps, freqs, saturated, alphabet, precision):
     """Write the matrix of pairwise distances of ALIGNMENT (FASTA or NEXUS, '-' for stdin)."""
     from .alignment import read_alignment
     from .distances import distance_matrix
@@ -117,7 +122,9 @@ def distances(obj, alignment, output, model, gamma, gaps, freqs, saturated, alph
     check_output_not_input(output, alignment)
     start = time.perf_counter()
     aln = read_alignment(alignment, alphabet=alphabet)
-    dm = distance_matrix(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated)
+    check_fits(aln.n_taxa, precision=precision)
+    dm = distance_matrix(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated,
+                         dtype=PRECISIONS[precision])
     dm.write(output)
     obj.say(distance_summary(aln, dm, time.perf_counter() - start))
 
@@ -160,7 +167,7 @@ def write_tree(tree, output, fmt, digits, support_digits):
     tree.write(output, format=output_format(output, fmt), digits=digits, support_digits=support_digits)
 
 
-def read_input(path, alphabet):
+def read_input(path, alphabet, precision="double"):
     """An alignment, or a labelled distance matrix (a TSV whose first cell is empty)."""
     from .alignment import read_alignment
     from .io.files import read_text
@@ -169,7 +176,10 @@ def read_input(path, alphabet):
     text = read_text(path)
     source = "<stdin>" if path == "-" else path
     if text.startswith("\t"):
-        return None, read_distance_matrix(source, text=text)
+        dm = read_distance_matrix(source, text=text)
+        if precision == "single":
+            dm = DistanceMatrix(dm.names, dm.values, validate=False, dtype=np.float32, info=dm.info)
+        return None, dm
     return read_alignment(path, alphabet=alphabet, text=text), None
 
 
@@ -198,7 +208,8 @@ def read_input(path, alphabet):
 @tree_output_options
 @click.pass_obj
 @guarded
-def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, alphabet, negative, root_spec,
+def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, alphabet, precision, negative,
+         root_spec,
          replicates, seed, workers, measure, save_replicates, resume, scheduler, report_path, fmt, digits,
          support_digits):
     """Build a tree from INPUT: an alignment (FASTA or NEXUS) or a labelled distance matrix (TSV)."""
@@ -208,7 +219,10 @@ def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, 
     check_output_not_input(output, input_path, save_replicates)
     check_output_not_input(report_path, input_path, save_replicates)
     start = time.perf_counter()
-    aln, dm = read_input(input_path, alphabet)
+    aln, dm = read_input(input_path, alphabet, precision)
+    n_taxa = aln.n_taxa if aln is not None else len(dm.names)
+    check_fits(n_taxa, method=method, precision=precision,
+               workers=(workers or os.cpu_count() or 1) if replicates and scheduler is None else 0)
     boot = None
     if replicates:
         if aln is None:
@@ -219,14 +233,15 @@ def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, 
         boot = bootstrap(aln, replicates, model=model, method=method, gamma=gamma, gaps=gaps, freqs=freqs,
                          saturated=saturated, negative=negative, seed=seed, workers=workers, support=measure,
                          save_replicates=save_replicates, resume=resume, scheduler=scheduler,
-                         progress=not obj.quiet)
-        result, info = boot.tree, boot.info
-        dm = None
+                         progress=not obj.quiet, precision=precision)
+        result, info, dm = boot.tree, boot.info, boot.matrix
     else:
         if dm is None:
-            dm = distance_matrix(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated)
+            dm = distance_matrix(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated,
+                                 dtype=PRECISIONS[precision])
         result, info = build_tree_with_info(dm, method, negative, source=input_path)
         info.update(dm.info)
+    info["negative"] = negative
     if root_spec:
         from .rooting import root_tree
 
@@ -235,12 +250,9 @@ def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, 
     seconds = time.perf_counter() - start
     summary = tree_summary(aln, dm, info, boot, seconds)
     if report_path:
-        from .distances import distance_matrix as _dm
         from .report import write_report
 
-        full_dm = dm if dm is not None else _dm(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs,
-                                                saturated=saturated)
-        write_report(report_path, alignment=aln, dm=full_dm, tree=result, info=info,
+        write_report(report_path, alignment=aln, dm=dm, tree=result, info=info,
                      command_line=" ".join(["cladewright"] + sys.argv[1:]), warnings=run_warnings(aln, info),
                      support_values=result.support)
     obj.say(summary)

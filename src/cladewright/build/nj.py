@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .linkage import working_dtype
 from ..kernels.nj import LIST_LENGTH, N_CLASSES, nj_kernel
 
 __all__ = ["nj_arrays"]
@@ -65,5 +66,5 @@ def nj_arrays(values, bionj=False, list_length=LIST_LENGTH, n_classes=N_CLASSES)
     >>> l[:2].tolist()
     [1.0, 2.0]
     """
-    D = np.array(values, dtype=np.float64, order="C", copy=True)
+    D = np.array(values, dtype=working_dtype(values), order="C", copy=True)
     return nj_kernel(D, bool(bionj), int(list_length), int(n_classes))

@@ -298,7 +298,7 @@ def nj_kernel(D, bionj, K, G):
     mirror_upper(D)
     parent = np.full(m, -1, np.int64)
     length = np.full(m, np.nan, np.float64)
-    V = D.copy() if bionj else np.zeros((1, 1), np.float64)
+    V = D.copy() if bionj else np.zeros((1, 1), D.dtype)
     node = np.arange(n)                       # node id on each row
     slot = np.full(m, -1, np.int64)           # row of each live node, -1 once joined
     slot[:n] = np.arange(n)

@@ -22,16 +22,20 @@ from ..errors import InputError
 
 __all__ = ["BootstrapResult", "bootstrap", "replicate_weights"]
 
+PRECISIONS = {"double": np.float64, "single": np.float32}
+
 
 @dataclass
 class BootstrapResult:
-    """The tree of the original data with support, and the replicate trees."""
+    """The tree of the original data with support, the replicate trees, and
+    the distance matrix of the original data."""
 
     tree: object
     replicates: list
     seed: int
     support: str
     info: dict = field(default_factory=dict)
+    matrix: object = None
 
 
 def replicate_weights(weights, seed, index):
@@ -52,7 +56,7 @@ class _Job:
     weights: np.ndarray
     alphabet: str
     seed: int
-    settings: tuple   # (model, gamma, gaps, freqs, saturated, method, negative)
+    settings: tuple   # (model, gamma, gaps, freqs, saturated, method, negative, precision)
 
 
 def _replicate_tree(job, index):
@@ -60,9 +64,10 @@ def _replicate_tree(job, index):
     from ..distances import distance_matrix
 
     aln = _job_alignment(job)
-    model, gamma, gaps, freqs, saturated, method, negative = job.settings
+    model, gamma, gaps, freqs, saturated, method, negative, precision = job.settings
     w = replicate_weights(job.weights, job.seed, index)
-    dm = distance_matrix(aln, model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated, weights=w)
+    dm = distance_matrix(aln, model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated, weights=w,
+                         dtype=PRECISIONS[precision])
     tree = build_tree(dm, method, negative)
     return index, tree.parent.copy(), tree.length.copy(), tree.rooted, tree.to_newick()
 
@@ -209,7 +214,7 @@ def _read_done(path, job, replicates):
 
 def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None, gaps="pairwise",
               freqs="alignment", saturated="error", negative="zero", seed=None, workers=None, support="fbp",
-              save_replicates=None, resume=False, scheduler=None, progress=True):
+              save_replicates=None, resume=False, scheduler=None, progress=True, precision="double"):
     """Bootstrap support for the tree of an alignment.
 
     Parameters
@@ -233,6 +238,8 @@ def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None
         Run the replicates on a Dask cluster instead of local processes.
     progress : bool
         A progress line with the time left on stderr, when it is a terminal.
+    precision : {"double", "single"}
+        float64 or float32 distance matrices (half the memory per worker).
 
     Returns
     -------
@@ -261,10 +268,13 @@ def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None
     if workers < 1:
         raise InputError(f"workers must be >= 1, got {workers}")
 
-    dm = distance_matrix(alignment, model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated)
+    if precision not in PRECISIONS:
+        raise InputError(f"unknown precision {precision!r}; choose double or single")
+    dm = distance_matrix(alignment, model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated,
+                         dtype=PRECISIONS[precision])
     tree, info = build_tree_with_info(dm, method, negative)
     job = _Job(alignment.names, alignment.patterns, alignment.weights, alignment.alphabet, int(seed),
-               (model, gamma, gaps, freqs, saturated, method, negative))
+               (model, gamma, gaps, freqs, saturated, method, negative, precision))
 
     done = []
     out = None
@@ -300,4 +310,4 @@ def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None
             out.close()
     values = fbp_support(tree, trees) if support == "fbp" else tbe_support(tree, trees)
     info.update(dm.info, replicates=replicates, resumed=len(done), workers=workers)
-    return BootstrapResult(apply_support(tree, values), trees, int(seed), support, info)
+    return BootstrapResult(apply_support(tree, values), trees, int(seed), support, info, dm)
