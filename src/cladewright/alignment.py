@@ -151,14 +151,17 @@ def encode(names, sequences, alphabet, source, positions=None):
     length = lengths.pop() if lengths else 0
     states = np.empty((len(sequences), length), dtype=np.uint8)
     for i, seq in enumerate(sequences):
-        raw = np.frombuffer(seq.encode("latin-1", "replace"), dtype=np.uint8)
-        row = table[raw]
+        # Code points, not bytes: a character beyond Latin-1 must be
+        # reported, not silently read as '?' (missing).
+        raw = np.frombuffer(seq.encode("utf-32-le", "surrogatepass"), dtype="<u4")
+        row = table[np.minimum(raw, 255)]
+        row[raw > 255] = 255
         if (row == 255).any():
             col = int(np.flatnonzero(row == 255)[0])
             hint = ("pass --alphabet protein if these are amino acids" if alphabet == "dna"
                     else "remove or replace it (X marks an unknown residue)")
-            raise InputError(f"sequence {names[i]!r}, site {col + 1}: {seq[col]!r} is not a "
-                             f"{'nucleotide (IUPAC, NC-IUB 1985)' if alphabet == 'dna' else 'amino-acid'} code; "
+            raise InputError(f"sequence {names[i]!r}, site {col + 1}: {seq[col]!r} is not "
+                             f"{'a nucleotide (IUPAC, NC-IUB 1985)' if alphabet == 'dna' else 'an amino-acid'} code; "
                              f"{hint}", source=source)
         states[i] = row
     return states
@@ -176,7 +179,8 @@ def read_alignment(path, alphabet=None, *, text=None):
     path : str or os.PathLike
         The file; ``-`` reads standard input.
     alphabet : {"dna", "protein"}, optional
-        Detected when not given: protein if any letter is not a nucleotide code.
+        Detected when not given: from a NEXUS FORMAT DATATYPE, else protein
+        if any letter is not a nucleotide code.
     text : str, optional
         The content, when the caller already has it (``path`` then only names it).
 
@@ -202,7 +206,12 @@ def read_alignment(path, alphabet=None, *, text=None):
     if stripped.startswith(">"):
         names, seqs = parse_fasta(text, source)
     elif stripped[:6].upper() == "#NEXUS":
-        names, seqs = parse_nexus_matrix(text, source)
+        info = {}
+        names, seqs = parse_nexus_matrix(text, source, info)
+        # FORMAT DATATYPE settles the alphabet that letters alone may not
+        # (a short protein can look like DNA).
+        if alphabet is None:
+            alphabet = info.get("alphabet")
     else:
         first = stripped.splitlines()[0][:40]
         raise InputError(f"does not look like an alignment (it starts {first!r}); give aligned FASTA "

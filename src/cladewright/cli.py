@@ -58,6 +58,13 @@ def guarded(func):
         except Exception as err:  # noqa: BLE001 - the last line of defence for users
             if ctx is not None and ctx.debug:
                 raise
+            if isinstance(err, OSError) and err.filename:
+                from .io.files import output_error
+
+                mapped = output_error(err, err.filename, tail="the run stopped")
+                if mapped is not None:  # full disk, quota, permissions: the user's to fix
+                    click.echo(f"cladewright: error: {mapped}", err=True)
+                    sys.exit(2)
             click.echo(f"cladewright: internal error: {type(err).__name__}: {err} (run again with --debug "
                        "for the traceback, and report it)", err=True)
             sys.exit(1)
@@ -104,7 +111,10 @@ def check_output_not_input(output, *inputs):
         return
     out = os.path.realpath(output)
     for path in inputs:
-        if path not in (None, "-") and os.path.exists(path) and os.path.realpath(path) == out:
+        if path in (None, "-") or not os.path.exists(path):
+            continue
+        # realpath catches symbolic links, samefile hard links
+        if os.path.realpath(path) == out or (os.path.exists(output) and os.path.samefile(path, output)):
             raise InputError(f"the output {output} is also an input; choose another output path")
 
 
@@ -175,7 +185,7 @@ def read_input(path, alphabet, precision="double"):
 
     text = read_text(path)
     source = "<stdin>" if path == "-" else path
-    if text.startswith("\t"):
+    if text.lstrip(" \n").startswith("\t"):  # the reader skips blank lines before the header
         dm = read_distance_matrix(source, text=text)
         if precision == "single":
             dm = DistanceMatrix(dm.names, dm.values, validate=False, dtype=np.float32, info=dm.info)
@@ -218,6 +228,9 @@ def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, 
 
     check_output_not_input(output, input_path, save_replicates)
     check_output_not_input(report_path, input_path, save_replicates)
+    check_output_not_input(save_replicates, input_path)
+    if report_path and output != "-" and os.path.realpath(report_path) == os.path.realpath(output):
+        raise InputError(f"--report and --output both name {output}; choose two different files")
     start = time.perf_counter()
     aln, dm = read_input(input_path, alphabet, precision)
     n_taxa = aln.n_taxa if aln is not None else len(dm.names)

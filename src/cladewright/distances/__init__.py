@@ -66,6 +66,9 @@ GAP_MODES = ("pairwise", "complete")
 FREQ_MODES = ("alignment", "pair")
 SATURATED_MODES = ("error", "cap")
 MAX_LISTED = 10
+# Models whose formula gives 0 for two identical sequences whatever the base
+# frequencies; LogDet (-1/4 ln det F - ln 4, Lockhart et al. 1994) does not.
+ZERO_WHEN_IDENTICAL = frozenset(MODELS) - {"logdet"}
 
 
 def resolve_model(model, alphabet, source=None):
@@ -150,7 +153,8 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
         raise InputError(f"unknown saturation rule {saturated!r}; choose error or cap", source=src)
     n = alignment.n_taxa
     if n < 2:
-        raise InputError(f"{n} sequence(s); distances need at least two", source=src)
+        raise InputError(f"the alignment has {n} sequence(s); distances need at least two: add sequences",
+                         source=src)
 
     k = alignment.n_states
     patterns = alignment.patterns
@@ -183,6 +187,12 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
             if kind == kc.COMPOSITION:
                 pair_pi = (c["comp_i"] + c["comp_j"]) / (2.0 * c["shared"][:, None])
             d = spec.formula(c, pair_pi, gamma)
+            if spec.name in ZERO_WHEN_IDENTICAL:
+                # A pair with no difference is at distance 0 in these models
+                # (every log term is ln 1 = 0), even where a frequency term
+                # is 0/0 (a base absent from a constant alignment).
+                d = np.where(c["same"] == c["shared"], 0.0, d)
+            d = d + 0.0  # -0.0 (from -ln 1) would be written as '-0.0'
             no_sites = c["shared"] == 0
             if no_sites.any():
                 empty.extend(_pairs_at(upper, no_sites, r0, 1))
@@ -203,9 +213,11 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
     if n_undefined:
         listed = "; ".join(f"{names[i]}-{names[j]}" for i, j in undefined)
         more = f" and {n_undefined - len(undefined)} more" if n_undefined > len(undefined) else ""
+        why = ("saturated: a logarithm's argument <= 0" if not (spec.uses_freqs or kind == kc.FULL) else
+               "saturated, or a base the model needs is absent: a logarithm's argument <= 0")
         if saturated == "error":
             raise SaturationError(
-                f"model {spec.name}: distance undefined (saturated: a logarithm's argument <= 0) for "
+                f"model {spec.name}: distance undefined ({why}) for "
                 f"{n_undefined} pair(s): {listed}{more}; choose a model that saturates later (e.g. p) or pass "
                 "--saturated cap to set them to a cap and go on", undefined, source=src)
         finite = values[np.isfinite(values)]

@@ -114,7 +114,11 @@ def t92(c, pi, gamma=None):
     _, c_, g_, _ = _bases(pi)
     theta = c_ + g_
     h = 2.0 * theta * (1.0 - theta)
-    return h * _neglog(1.0 - ts / h - q, None) + 0.5 * (1.0 - h) * _neglog(1.0 - 2.0 * q, None)
+    # h = 0 (no G+C, or only G+C) leaves no transitions possible (P = 0), and
+    # h ln(1 - P/h - Q) -> 0 as h -> 0: the first term vanishes.
+    with np.errstate(divide="ignore", invalid="ignore"):
+        first = np.where(h > 0, h * _neglog(1.0 - ts / np.where(h > 0, h, 1.0) - q, None), 0.0)
+    return first + 0.5 * (1.0 - h) * _neglog(1.0 - 2.0 * q, None)
 
 
 def tn93(c, pi, gamma=None):

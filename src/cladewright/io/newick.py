@@ -263,7 +263,13 @@ def _make_tree(text, par, lab, ln, internal, npos, rooted_flag, source):
         rooted = root >= n and int(np.count_nonzero(parent == root)) == 2
     else:
         rooted = rooted_flag
-    return Tree(parent, length, names, support=support, labels=labels, rooted=rooted)
+    try:
+        return Tree(parent, length, names, support=support, labels=labels, rooted=rooted)
+    except ValueError as err:
+        # the parser builds valid arrays; this guards a reader from ever
+        # failing with anything but InputError
+        raise InputError(f"{_where(text, npos[0])}: the tree is not valid ({err}); check the parentheses",
+                         source=source) from None
 
 
 # ---- writing -------------------------------------------------------------

@@ -32,6 +32,10 @@ _TOKEN = re.compile(
 _NEXUS_QUOTE = re.compile(r"[\s()\[\]{}/\\,;:=*'\"`+<>\-_]|[^\x21-\x7e]")
 
 
+# ASCII digits only: str.isdigit() also takes '²', which int() refuses.
+_WHOLE = re.compile(r"[0-9]+")
+
+
 def _tokens(text, source):
     """(kind, token, start, end) for every token, comments and blanks dropped."""
     for mt in _TOKEN.finditer(text):
@@ -173,7 +177,7 @@ def _rename(tree, translate, taxlabels, text, pos, source):
     elif taxlabels:
         known = set(taxlabels)
         ntax = len(taxlabels)
-        names = [taxlabels[int(x) - 1] if x.isdigit() and x not in known and 1 <= int(x) <= ntax else x
+        names = [taxlabels[int(x) - 1] if _WHOLE.fullmatch(x) and x not in known and 1 <= int(x) <= ntax else x
                  for x in names]
     else:
         return tree
@@ -183,8 +187,12 @@ def _rename(tree, translate, taxlabels, text, pos, source):
         raise InputError(f"{_where(text, pos)}: taxon {dup!r} appears twice in this tree after TRANSLATE; "
                          "fix the TRANSLATE table or the tree", source=source)
     from ..tree import Tree
-    return Tree(tree.parent, tree.length, names, support=tree.support, labels=tree.labels,
-                rooted=tree.rooted)
+    try:
+        return Tree(tree.parent, tree.length, names, support=tree.support, labels=tree.labels,
+                    rooted=tree.rooted)
+    except ValueError as err:
+        raise InputError(f"{_where(text, pos)}: the tree is not valid after TRANSLATE ({err}); "
+                         "fix the TRANSLATE table or the tree", source=source) from None
 
 
 def quote_nexus(word):

@@ -11,6 +11,7 @@ complete; ``resume`` continues such a file.
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import secrets
@@ -251,7 +252,7 @@ def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None
     """
     from ..build import build_tree_with_info
     from ..distances import distance_matrix
-    from ..io.files import atomic_output
+    from ..io.files import atomic_output, output_error
     from ..progress import Progress
     from ..tree import Tree
     from . import fbp_support, tbe_support, apply_support
@@ -288,7 +289,13 @@ def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None
         else:
             with atomic_output(_sidecar(path)) as fh:
                 json.dump(_run_key(job), fh)
-        out = open(path, "a", encoding="utf-8", newline="\n")
+        try:
+            out = open(path, "a", encoding="utf-8", newline="\n")
+        except OSError as err:
+            mapped = output_error(err, path)
+            if mapped is None:
+                raise
+            raise mapped from None
     trees = list(done)
     pending = {}
     next_index = len(done)
@@ -301,13 +308,23 @@ def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None
                     parent, length, rooted, newick = pending.pop(next_index)
                     trees.append(Tree(parent, length, alignment.names, rooted=rooted))
                     if out is not None:
-                        out.write(newick)
-                        out.flush()
+                        try:
+                            out.write(newick)
+                            out.flush()
+                        except OSError as err:
+                            mapped = output_error(err, path, tail="the replicates written so far are kept "
+                                                  "(continue with --resume)")
+                            if mapped is None:
+                                raise
+                            raise mapped from None
                     next_index += 1
                 bar.advance()
     finally:
         if out is not None:
-            out.close()
+            # after a failed write the buffer still holds a torn line, and
+            # closing would raise again over the clearer error
+            with contextlib.suppress(OSError):
+                out.close()
     values = fbp_support(tree, trees) if support == "fbp" else tbe_support(tree, trees)
     info.update(dm.info, replicates=replicates, resumed=len(done), workers=workers)
     return BootstrapResult(apply_support(tree, values), trees, int(seed), support, info, dm)
