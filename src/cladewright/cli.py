@@ -268,7 +268,9 @@ def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, 
         write_report(report_path, alignment=aln, dm=dm, tree=result, info=info,
                      command_line=" ".join(["cladewright"] + sys.argv[1:]), warnings=run_warnings(aln, info),
                      support_values=result.support)
-    obj.say(summary)
+    where = "standard output" if output == "-" else output
+    obj.say(summary + f"\noutput    {where} ({output_format(output, fmt)})"
+            + (f", report {report_path}" if report_path else ""))
 
 
 def run_warnings(aln, info):

@@ -112,6 +112,27 @@ def _support_text(value):
     return str(int(r)) if abs(value - r) < 0.05 else f"{value:.1f}"
 
 
+def _columns(root, kids, x, scale, labels, m, *, stretch):
+    """Column of every node: to scale; with ``stretch`` every branch at least
+    one column wide and wide enough for its label."""
+    col = [0] * m
+    stretched = False
+    order = []
+    stack = [root]
+    while stack:
+        v = stack.pop()
+        order.append(v)
+        for c in kids[v]:
+            want = int(round(x[c] * scale)) - int(round(x[v] * scale))
+            need = (len(labels[c]) + 3 if labels[c] else 1) if stretch else 0
+            if want < need:
+                stretched = stretched or bool(labels[c])
+                want = need
+            col[c] = col[v] + want
+        stack.extend(kids[v])
+    return order, col, stretched
+
+
 def text_tree(tree, width=None, *, ascii=False, ladderize=True, support=True):
     """The tree as text lines, to print on a terminal.
 
@@ -171,23 +192,15 @@ def text_tree(tree, width=None, *, ascii=False, ladderize=True, support=True):
     width = max(4, int(width))
     span = float(x.max()) if m > 1 else 0.0
     scale = (width - 2) / span if span > 0 else 0.0
-    # Columns: every branch at least 1 wide, and wide enough for its label.
-    col = [0] * m
-    stretched = False
-    order = []
-    stack = [root]
     x_l = x.tolist()
-    while stack:
-        v = stack.pop()
-        order.append(v)
-        for c in kids[v]:
-            want = int(round(x_l[c] * scale)) - int(round(x_l[v] * scale))
-            need = len(labels[c]) + 3 if labels[c] else 1
-            if want < need:
-                stretched = stretched or bool(labels[c])
-                want = need
-            col[c] = col[v] + want
-        stack.extend(kids[v])
+    order, col, stretched = _columns(root, kids, x_l, scale, labels, m, stretch=True)
+    merged = False
+    if max(col) > max(4 * width, 400):
+        # Too deep to give every branch a column (a long caterpillar would need
+        # one per level, and the drawing would grow with the square of n): draw
+        # to scale only, short branches merged, labels where they fit.
+        order, col, _ = _columns(root, kids, x_l, scale, labels, m, stretch=False)
+        merged, stretched = True, False
     # Rows: leaves one per line from the top; an internal node on the row of
     # the middle of its first and last child (rounded up the page).
     row_of = [0] * m
@@ -216,7 +229,7 @@ def text_tree(tree, width=None, *, ascii=False, ladderize=True, support=True):
             # a leaf's line runs through its own column, so it shows at least one dash
             for c in range(c0 + 1, col[k] + (1 if k < n else 0)):
                 grid[rk][c] = ch["h"]
-            if labels[k]:
+            if labels[k] and col[k] - c0 >= len(labels[k]) + 2:
                 start = col[k] - len(labels[k]) - 1  # one dash either side
                 for j, s in enumerate(labels[k]):
                     grid[rk][start + j] = s
@@ -235,7 +248,8 @@ def text_tree(tree, width=None, *, ascii=False, ladderize=True, support=True):
         ends = ("|", "|") if ascii else ("├", "┤")
         # the bar's end marks stand on the columns cols_bar apart
         lines.append(" " + ends[0] + ch["h"] * (cols_bar - 1) + ends[1] + f" {bar:g} substitutions per site"
-                     + (" (some branches stretched to fit their support value)" if stretched else ""))
+                     + (" (some branches stretched to fit their support value)" if stretched else "")
+                     + (" (too deep to show every branch: short branches merged)" if merged else ""))
     elif not has_lengths:
         lines.append("no branch lengths: drawn as a cladogram")
     return "\n".join(lines) + "\n"
