@@ -115,18 +115,3 @@ def pair_counts(planes, valid, word_weight, r0, r1, kind, out):
                             cj_ += wt * popcount(planes[j, w, a] & valid[i, w])
                         out[ii, j, 4 + a] = ci_
                         out[ii, j, 8 + a] = cj_
-
-
-@nb.njit(cache=True, nogil=True)
-def mirror_upper(values):
-    """Copy the upper triangle onto the lower, in place, in cache-sized tiles;
-    zero the diagonal."""
-    n = values.shape[0]
-    tile = 64
-    for i0 in range(0, n, tile):
-        for j0 in range(i0, n, tile):
-            for i in range(i0, min(i0 + tile, n)):
-                for j in range(max(j0, i + 1), min(j0 + tile, n)):
-                    values[j, i] = values[i, j]
-    for i in range(n):
-        values[i, i] = 0.0
