@@ -18,6 +18,8 @@ from cladewright.matrix import DistanceMatrix
 from cladewright.rooting import midpoint_root
 from cladewright.tree import Tree
 
+from conftest import random_join_tree
+
 
 def partition(labels, names):
     labels = np.asarray(labels)
@@ -32,21 +34,7 @@ def random_matrix(rng, n):
 
 
 def random_tree(rng, n, rooted):
-    """A random binary tree by random joins, random lengths."""
-    m = 2 * n - 1 if rooted else 2 * n - 2
-    parent = np.full(m, -1)
-    pool = list(range(n))
-    nxt = n
-    while len(pool) > (1 if rooted else 3):
-        a, b = rng.choice(len(pool), 2, replace=False)
-        parent[pool[a]] = parent[pool[b]] = nxt
-        pool = [x for i, x in enumerate(pool) if i not in (a, b)] + [nxt]
-        nxt += 1
-    if not rooted:
-        parent[pool] = nxt
-    length = rng.uniform(0.0, 1.0, m)
-    length[m - 1] = np.nan
-    return Tree(parent, length, [f"t{i}" for i in range(n)], rooted=rooted)
+    return random_join_tree(rng, n, rooted, shortest=0.0, support=False, shuffle=False)
 
 
 @pytest.mark.parametrize("seed", range(10))

@@ -18,26 +18,11 @@ from cladewright.io import read_trees
 from cladewright.io.newick import parse_newick
 from cladewright.tree import Tree
 
+from conftest import random_join_tree
+
 
 def random_tree(rng, n, rooted, prefix="t"):
-    """A random binary tree by random joins, random lengths and support."""
-    m = 2 * n - 1 if rooted else 2 * n - 2
-    parent = np.full(m, -1)
-    pool = list(range(n))
-    nxt = n
-    while len(pool) > (1 if rooted else 3):
-        a, b = rng.choice(len(pool), 2, replace=False)
-        parent[pool[a]] = parent[pool[b]] = nxt
-        pool = [x for i, x in enumerate(pool) if i not in (a, b)] + [nxt]
-        nxt += 1
-    if not rooted:
-        parent[pool] = nxt
-    length = rng.uniform(0.01, 1.0, m)
-    length[m - 1] = np.nan
-    sup = np.full(m, np.nan)
-    sup[n:m - 1] = rng.integers(0, 101, m - 1 - n)
-    names = [f"{prefix}{i}" for i in rng.permutation(n)]
-    return Tree(parent, length, names, support=sup, rooted=rooted)
+    return random_join_tree(rng, n, rooted, prefix=prefix, one_root_support=False)
 
 
 def to_dendropy(tree, tns):
