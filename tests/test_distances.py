@@ -215,3 +215,18 @@ def test_properties(aln, alpha):
             assert np.all(m >= 0)
         assert np.all(d >= p - 1e-12)
         assert np.all(g >= d - 1e-12)
+
+
+def test_saturated_pairs_are_named_across_count_blocks(monkeypatch):
+    # source: Jukes & Cantor (1969): JC69 is undefined at p >= 0.75. Sequences 'u*' are all A and
+    # sequences 'v*' all C (p = 1 between the groups, 0 within), so exactly the u-v pairs are
+    # undefined, whatever block of rows they are counted in.
+    import cladewright.distances.counts as counts_module
+
+    monkeypatch.setattr(counts_module, "BLOCK_BYTES", 64)  # one row per block
+    names = ["u0", "v0", "u1", "u2", "v1"]
+    aln = make_alignment(names, ["AAAA" if n[0] == "u" else "CCCC" for n in names])
+    with pytest.raises(errors.SaturationError) as caught:
+        distance_matrix(aln, "jc69")
+    expected = {(a, b) for i, a in enumerate(names) for b in names[i + 1:] if a[0] != b[0]}
+    assert {(names[i], names[j]) for i, j in caught.value.pairs} == expected

@@ -206,7 +206,7 @@ def read_input(path, alphabet, precision="double"):
 @click.option("--replicates", "-b", type=click.IntRange(0, None), default=0, show_default=True,
               help="Bootstrap replicates (0: no support).")
 @click.option("--seed", type=click.IntRange(0, None), default=None, help="Seed of the bootstrap (drawn if not given).")
-@click.option("--workers", type=click.IntRange(1, None), default=None, help="Local worker processes (default: cores).")
+@click.option("--workers", type=click.IntRange(1, None), default=None, help="Replicates run side by side on this machine (default: cores).")
 @click.option("--support", "measure", type=click.Choice(["fbp", "tbe"]), default="fbp", show_default=True,
               help="Felsenstein bootstrap proportion or transfer bootstrap expectation.")
 @click.option("--save-replicates", type=click.Path(dir_okay=False), default=None,

@@ -2,7 +2,7 @@
 
 A run over n taxa holds the n x n distance matrix, and a tree method holds a
 working copy (BIONJ a second one for its variances). A bootstrap holds that
-in every worker process. The estimate is compared with the memory the
+again in every worker, for the replicate it is building. The estimate is compared with the memory the
 system has available, so that a run that cannot fit stops at once, with the
 options that would fit, instead of failing hours later.
 """
@@ -39,13 +39,13 @@ def estimate_bytes(n, *, method=None, precision="double", workers=0):
     precision : {"double", "single"}
         float64 or float32 matrices.
     workers : int
-        Bootstrap worker processes (0: no bootstrap); each holds a matrix
+        Bootstrap workers (0: no bootstrap); each holds a replicate's matrix
         and the method's working copies of its own.
     """
     item = 8 if precision == "double" else 4
     square = n * n * item
     main = PROCESS_BASE + DISTANCE_WORK + square * (1 + _matrices(method))
-    per_worker = PROCESS_BASE + DISTANCE_WORK + square * (1 + _matrices(method))
+    per_worker = DISTANCE_WORK + square * (1 + _matrices(method))  # threads of the same process
     return main + workers * per_worker
 
 

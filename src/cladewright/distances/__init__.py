@@ -91,7 +91,7 @@ def resolve_model(model, alphabet, source=None):
 
 
 def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="alignment", *,
-                    saturated="error", weights=None, dtype=np.float64):
+                    saturated="error", weights=None, dtype=np.float64, serial=False):
     """All pairwise distances of an alignment under a substitution model.
 
     Parameters
@@ -120,6 +120,9 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
         pattern counts of the alignment.
     dtype : numpy dtype
         float64, or float32 to halve the memory of very large matrices.
+    serial : bool
+        Count on the calling thread only (for runs that are already parallel
+        across bootstrap replicates).
 
     Returns
     -------
@@ -179,10 +182,8 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
     undefined, empty = [], []
     n_undefined = 0
     with np.errstate(all="ignore"):
-        for r0, r1, block in iter_count_blocks(packed, kind):
-            rows = np.arange(r0, r1)[:, None]
-            upper = np.arange(n)[None, :] > rows
-            c = _count_dict(block[upper], kind)
+        for r0, r1, block in iter_count_blocks(packed, kind, serial=serial):
+            c = _count_dict(block, kind)
             pair_pi = pi
             if kind == kc.COMPOSITION:
                 pair_pi = (c["comp_i"] + c["comp_j"]) / (2.0 * c["shared"][:, None])
@@ -195,14 +196,14 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
             d = d + 0.0  # -0.0 (from -ln 1) would be written as '-0.0'
             no_sites = c["shared"] == 0
             if no_sites.any():
-                empty.extend(_pairs_at(upper, no_sites, r0, 1))
+                empty.extend(_pairs_at(no_sites, r0, n, 1))
                 break
             bad = ~np.isfinite(d)
             if bad.any():
                 n_undefined += int(bad.sum())
                 if len(undefined) < MAX_LISTED:
-                    undefined.extend(_pairs_at(upper, bad, r0, MAX_LISTED - len(undefined)))
-            values[r0:r1][upper] = d
+                    undefined.extend(_pairs_at(bad, r0, n, MAX_LISTED - len(undefined)))
+            kc.put_pairs(values, r0, d.astype(dtype, copy=False))
     names = alignment.names
     if empty:
         i, j = empty[0]
@@ -228,27 +229,32 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
     return DistanceMatrix(names, values, validate=False, dtype=dtype, info=info)
 
 
-def _count_dict(flat, kind):
-    """Name the columns of a (m, n_counts) count array."""
+def _count_dict(block, kind):
+    """Name the rows of a (n_counts, m) count block."""
     if kind == kc.FULL:
-        full = flat.reshape(-1, 4, 4)
-        shared = full.sum(axis=(1, 2))
-        same = np.trace(full, axis1=1, axis2=2)
+        full = block.T.reshape(-1, 4, 4)
+        shared = block.sum(axis=0)
+        same = block[0] + block[5] + block[10] + block[15]
         return {"shared": shared, "same": same, "full": full,
-                "ag": full[:, 0, 2] + full[:, 2, 0], "ct": full[:, 1, 3] + full[:, 3, 1]}
-    c = {"shared": flat[:, 0], "same": flat[:, 1]}
+                "ag": block[2] + block[8], "ct": block[7] + block[13]}
+    c = {"shared": block[0], "same": block[1]}
     if kind in (kc.TRANSITIONS, kc.COMPOSITION):
-        c["ag"], c["ct"] = flat[:, 2], flat[:, 3]
+        c["ag"], c["ct"] = block[2], block[3]
     if kind == kc.COMPOSITION:
-        c["comp_i"], c["comp_j"] = flat[:, 4:8], flat[:, 8:12]
+        c["comp_i"], c["comp_j"] = block[4:8].T, block[8:12].T
     return c
 
 
-def _pairs_at(upper, flags, r0, limit):
-    """(i, j) of the first ``limit`` flagged entries of a block's upper mask."""
-    rr, cc = np.nonzero(upper)
-    hit = np.flatnonzero(flags)[:limit]
-    return [(int(rr[h]) + r0, int(cc[h])) for h in hit]
+def _pairs_at(flags, r0, n, limit):
+    """(i, j) of the first ``limit`` flagged pairs of a block that starts at row r0."""
+    hit = np.flatnonzero(flags)[:limit] + kc.pairs_before(r0, n)
+    # Invert pairs_before: the row i of condensed index p is the largest i
+    # with pairs_before(i) <= p.
+    rows = np.arange(r0, n)
+    starts = rows * (n - 1) - rows * (rows - 1) // 2
+    i = rows[np.searchsorted(starts, hit, side="right") - 1]
+    j = hit - (i * (n - 1) - i * (i - 1) // 2) + i + 1
+    return [(int(a), int(b)) for a, b in zip(i, j)]
 
 
 def _check_frequencies(spec, pi, source):

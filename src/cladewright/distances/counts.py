@@ -69,17 +69,22 @@ def pack(patterns, weights, n_states, use=None):
     return PackedPatterns(planes, valid, word_weight, int(w.sum()))
 
 
-def iter_count_blocks(packed, kind):
-    """Yield ``(r0, r1, counts)`` for blocks of rows; ``counts[i - r0, j]``
-    holds the pair counts for j > i (other entries are undefined)."""
+def iter_count_blocks(packed, kind, serial=False):
+    """Yield ``(r0, r1, counts)`` for blocks of rows; ``counts[c, p]`` holds
+    count ``c`` of the p-th pair (i, j), r0 <= i < r1, j > i, in row-major
+    order of the upper triangle. ``serial`` keeps the counting on the
+    calling thread (bootstrap replicates run on threads of their own)."""
     n = packed.planes.shape[0]
     n_counts = kc.N_COUNTS[kind]
     rows = max(1, min(n, BLOCK_BYTES // max(1, n * n_counts * 8)))
-    buf = np.zeros((rows, n, n_counts), dtype=np.int64)
+    buf = np.empty((n_counts, max(1, rows * (n - 1))), dtype=np.int64)
+    count = kc.pair_counts_serial if serial else kc.pair_counts
+    planes = kc.transition_planes(packed.planes, packed.valid) if kind == kc.TRANSITIONS else packed.planes
     for r0 in range(0, n, rows):
         r1 = min(n, r0 + rows)
-        kc.pair_counts(packed.planes, packed.valid, packed.word_weight, r0, r1, kind, buf)
-        yield r0, r1, buf[: r1 - r0]
+        m = kc.pairs_before(r1, n) - kc.pairs_before(r0, n)
+        count(planes, packed.valid, packed.word_weight, r0, r1, kind, buf)
+        yield r0, r1, buf[:, :m]
 
 
 def state_frequencies(patterns, weights, n_states, use=None):

@@ -14,7 +14,9 @@ from __future__ import annotations
 import contextlib
 import json
 import os
+import queue
 import secrets
+import threading
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -61,6 +63,9 @@ class _Job:
 
 
 def _replicate_tree(job, index):
+    """Replicate ``index``: its site weights, distances and tree, as
+    (index, parent, length, rooted). The counting stays on the calling
+    thread: replicates are what runs side by side."""
     from ..build import build_tree
     from ..distances import distance_matrix
 
@@ -68,55 +73,39 @@ def _replicate_tree(job, index):
     model, gamma, gaps, freqs, saturated, method, negative, precision = job.settings
     w = replicate_weights(job.weights, job.seed, index)
     dm = distance_matrix(aln, model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated, weights=w,
-                         dtype=PRECISIONS[precision])
+                         dtype=PRECISIONS[precision], serial=True)
     tree = build_tree(dm, method, negative)
-    return index, tree.parent.copy(), tree.length.copy(), tree.rooted, tree.to_newick()
+    return index, tree.parent, tree.length, tree.rooted
 
 
 _ALIGNMENTS = {}
+_ALIGNMENTS_LOCK = threading.Lock()
 
 
 def _job_alignment(job):
     """One Alignment per job per process, built from the patterns (cheap)."""
     key = id(job)
-    if key not in _ALIGNMENTS:
-        from ..alignment import Alignment
+    with _ALIGNMENTS_LOCK:
+        if key not in _ALIGNMENTS:
+            from ..alignment import Alignment
 
-        aln = Alignment.__new__(Alignment)
-        aln.names, aln.alphabet, aln.source = job.names, job.alphabet, "replicate"
-        aln.patterns, aln.weights = job.patterns, job.weights
-        aln.states = job.patterns
-        aln.site_pattern = np.arange(job.patterns.shape[1])
-        _ALIGNMENTS.clear()
-        _ALIGNMENTS[key] = aln
-    return _ALIGNMENTS[key]
-
-
-_WORKER_JOB = None
-
-
-def _init_worker(job):
-    global _WORKER_JOB
-    import numba
-
-    numba.set_num_threads(1)  # parallelism is across replicates here
-    _WORKER_JOB = job
-
-
-def _run_chunk(indices):
-    return [_replicate_tree(_WORKER_JOB, i) for i in indices]
+            aln = Alignment.__new__(Alignment)
+            aln.names, aln.alphabet, aln.source = job.names, job.alphabet, "replicate"
+            aln.patterns, aln.weights = job.patterns, job.weights
+            aln.states = job.patterns
+            aln.site_pattern = np.arange(job.patterns.shape[1])
+            _ALIGNMENTS.clear()
+            _ALIGNMENTS[key] = aln
+        return _ALIGNMENTS[key]
 
 
 def _run_chunk_with(job, indices):
     """The Dask task: the job arrives as a scattered future."""
-    import numba
-
-    numba.set_num_threads(1)
     return [_replicate_tree(job, i) for i in indices]
 
 
 def _chunks(indices, workers):
-    """Small chunks, so that no worker idles at the end of a run."""
+    """Small chunks, so that no cluster worker idles at the end of a run."""
     size = max(1, min(16, len(indices) // max(1, 4 * workers)))
     return [indices[k:k + size] for k in range(0, len(indices), size)]
 
@@ -130,22 +119,52 @@ def _executor_results(job, todo, workers, scheduler):
         for i in todo:
             yield _replicate_tree(job, i)
         return
-    import concurrent.futures as cf
-    import multiprocessing as mp
+    yield from _thread_results(job, todo, workers)
 
-    # spawn, not fork: numba's OpenMP thread pool does not survive a fork. A
-    # calling script therefore needs the usual `if __name__ == "__main__":` guard.
-    ctx = mp.get_context("spawn")
-    with cf.ProcessPoolExecutor(max_workers=workers, mp_context=ctx, initializer=_init_worker,
-                                initargs=(job,)) as pool:
-        futures = [pool.submit(_run_chunk, chunk) for chunk in _chunks(todo, workers)]
-        try:
-            for fut in cf.as_completed(futures):
-                yield from fut.result()
-        except BaseException:
-            for fut in futures:
-                fut.cancel()
-            raise
+
+def _thread_results(job, todo, workers):
+    """Run replicates on ``workers`` threads, one replicate at a time each.
+
+    Threads, not processes: the compiled counting and tree kernels release
+    the interpreter lock, so replicates run in parallel while sharing the
+    patterns, with nothing to start or copy per worker. The threads are
+    daemons and take the next replicate only while the run goes on: after an
+    error or Ctrl-C the caller leaves at once, and a replicate still running
+    is simply abandoned.
+    """
+    tasks = queue.SimpleQueue()
+    for i in todo:
+        tasks.put(i)
+    results = queue.SimpleQueue()
+    stop = threading.Event()
+
+    def work():
+        while not stop.is_set():
+            try:
+                i = tasks.get_nowait()
+            except queue.Empty:
+                return
+            try:
+                results.put((True, _replicate_tree(job, i)))
+            except BaseException as err:  # handed to the caller, which raises it
+                results.put((False, err))
+                return
+
+    for k in range(min(workers, len(todo))):
+        threading.Thread(target=work, name=f"replicate-worker-{k}", daemon=True).start()
+    try:
+        for _ in range(len(todo)):
+            while True:
+                try:
+                    ok, value = results.get(timeout=0.2)  # wakes up for Ctrl-C
+                    break
+                except queue.Empty:
+                    continue
+            if not ok:
+                raise value
+            yield value
+    finally:
+        stop.set()
 
 
 def _dask_results(job, todo, scheduler):
@@ -302,14 +321,14 @@ def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None
     todo = list(range(len(done), replicates))
     try:
         with Progress("bootstrap", replicates, enabled=progress, done=len(done)) as bar:
-            for index, parent, length, rooted, newick in _executor_results(job, todo, workers, scheduler):
-                pending[index] = (parent, length, rooted, newick)
+            for index, parent, length, rooted in _executor_results(job, todo, workers, scheduler):
+                pending[index] = (parent, length, rooted)
                 while next_index in pending:
-                    parent, length, rooted, newick = pending.pop(next_index)
+                    parent, length, rooted = pending.pop(next_index)
                     trees.append(Tree(parent, length, alignment.names, rooted=rooted))
                     if out is not None:
                         try:
-                            out.write(newick)
+                            out.write(trees[-1].to_newick())
                             out.flush()
                         except OSError as err:
                             mapped = output_error(err, path, tail="the replicates written so far are kept "
