@@ -134,7 +134,7 @@ def distances(obj, alignment, output, model, gamma, gaps, freqs, saturated, alph
     aln = read_alignment(alignment, alphabet=alphabet)
     check_fits(aln.n_taxa, precision=precision)
     dm = distance_matrix(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated,
-                         dtype=PRECISIONS[precision])
+                         dtype=PRECISIONS[precision], progress=not obj.quiet)
     dm.write(output)
     obj.say(distance_summary(aln, dm, time.perf_counter() - start))
 
@@ -251,7 +251,7 @@ def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, 
     else:
         if dm is None:
             dm = distance_matrix(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated,
-                                 dtype=PRECISIONS[precision])
+                                 dtype=PRECISIONS[precision], progress=not obj.quiet)
         result, info = build_tree_with_info(dm, method, negative, source=input_path)
         info.update(dm.info)
     info["negative"] = negative

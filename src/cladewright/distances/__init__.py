@@ -16,6 +16,7 @@ from ..errors import InputError, SaturationError
 from ..kernels import counts as kc
 from ..kernels.linkage import mirror_upper
 from ..matrix import DistanceMatrix
+from ..progress import Progress
 from . import nucleotide as nuc
 from . import protein as prot
 from .counts import iter_count_blocks, pack, state_frequencies
@@ -91,7 +92,7 @@ def resolve_model(model, alphabet, source=None):
 
 
 def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="alignment", *,
-                    saturated="error", weights=None, dtype=np.float64, serial=False):
+                    saturated="error", weights=None, dtype=np.float64, serial=False, progress=False):
     """All pairwise distances of an alignment under a substitution model.
 
     Parameters
@@ -123,6 +124,9 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
     serial : bool
         Count on the calling thread only (for runs that are already parallel
         across bootstrap replicates).
+    progress : bool
+        A progress line with the time left on stderr, when it is a terminal
+        (worth it from some thousands of taxa).
 
     Returns
     -------
@@ -181,7 +185,7 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
     values = np.zeros((n, n), dtype=dtype)
     undefined, empty = [], []
     n_undefined = 0
-    with np.errstate(all="ignore"):
+    with np.errstate(all="ignore"), Progress("distances", n * (n - 1) // 2, enabled=progress) as bar:
         for r0, r1, block in iter_count_blocks(packed, kind, serial=serial):
             c = _count_dict(block, kind)
             pair_pi = pi
@@ -204,6 +208,7 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
                 if len(undefined) < MAX_LISTED:
                     undefined.extend(_pairs_at(bad, r0, n, MAX_LISTED - len(undefined)))
             kc.put_pairs(values, r0, d.astype(dtype, copy=False))
+            bar.advance(d.shape[0])
     names = alignment.names
     if empty:
         i, j = empty[0]

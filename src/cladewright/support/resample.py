@@ -291,7 +291,7 @@ def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None
     if precision not in PRECISIONS:
         raise InputError(f"unknown precision {precision!r}; choose double or single")
     dm = distance_matrix(alignment, model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated,
-                         dtype=PRECISIONS[precision])
+                         dtype=PRECISIONS[precision], progress=progress)
     tree, info = build_tree_with_info(dm, method, negative)
     job = _Job(alignment.names, alignment.patterns, alignment.weights, alignment.alphabet, int(seed),
                (model, gamma, gaps, freqs, saturated, method, negative, precision))
