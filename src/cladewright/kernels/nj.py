@@ -22,9 +22,12 @@ row is read in full if even that is not enough). Entries of clusters since
 joined are skipped. The bounds are exact in floating point, and a row that
 can only tie is skipped when it cannot hold a lower-indexed pair, so the
 search returns the same pair as a full scan, ties included (see
-:func:`nj_kernel`), and all-equal matrices stay fast. Time is O(n^2) in
+:func:`nj_kernel`), and all-equal matrices stay fast. Most rows are ruled out
+by one comparison, most of the rest by the cached first entry of each list
+(see :mod:`.nj_lists`). A new cluster's distances go to its own row only, the
+older rows are not updated (see :func:`.nj_lists.dist`). Time is O(n^2) in
 practice (O(n^3) at worst, as the plain scan); memory is the n x n matrix
-(two for BIONJ) plus n x G x K list entries.
+(two for BIONJ) plus n x G x (K + 2) list entries.
 
 References
 ----------
@@ -39,214 +42,114 @@ import numba as nb
 import numpy as np
 
 from .linkage import mirror_upper
+from .nj_lists import (begin_row, better, dist, end_row, fill_row, insert, new_lists,
+                       read_list, skip_joined)
 
 LIST_LENGTH = 8    # entries kept per row and class (speed only)
 N_CLASSES = 8      # classes of R (speed only; 8 measured best at n = 2,000 and 10,000)
 
 
-@nb.njit(cache=True, inline="always")
-def _insert(Lv, Ln, ln, g, v, nd, K):
-    """Insert (v, nd) into the ascending list g of one row (Lv, Ln, ln);
-    when the list is full its largest entry drops out. The caller tests
-    that v is below that entry."""
-    take = ln[g]
-    if take == K:
-        pos = K - 1
-    else:
-        pos = take
-        ln[g] = take + 1
-    while pos > 0 and Lv[g, pos - 1] > v:
-        Lv[g, pos] = Lv[g, pos - 1]
-        Ln[g, pos] = Ln[g, pos - 1]
-        pos -= 1
-    Lv[g, pos] = v
-    Ln[g, pos] = nd
-
-
 @nb.njit(cache=True)
-def _fill_row(D, s, live, r, node, lab, L, cnt, thr):
-    """Rebuild every class list of row s from the matrix: the K smallest
-    entries of each class, ascending; whatever is left out is at least the
-    list's last value (among equal values the first in row order is kept)."""
-    Lval, Lnode, Llen, Lstart, Lfull, head = L
-    G = Lval.shape[1]
-    K = Lval.shape[2]
-    row = D[s]
-    Lv = Lval[s]
-    Ln = Lnode[s]
-    ln = Llen[s]
-    cnt[:] = 0
-    ln[:] = 0
-    thr[:] = np.inf
-    for b in range(r):
-        k = live[b]
-        if k != s:
-            g = lab[k]
-            cnt[g] += 1
-            v = row[k]
-            if v < thr[g]:
-                _insert(Lv, Ln, ln, g, v, node[k], K)
-                if ln[g] == K:
-                    thr[g] = Lv[g, K - 1]
-    for g in range(G):
-        Lstart[s, g] = 0
-        Lfull[s, g] = cnt[g] <= K
-        head[s, g] = Lv[g, 0] if ln[g] > 0 else np.inf
+def _visit(D, born, cand, m, c, rmax, lowest, best, live, r, node, slot, lab, R, L, slow):
+    """Look at the lists cand[:m] (s G + g for list g of row s, rows
+    ascending) and return the updated ``best`` = (q, i, j).
 
-
-@nb.njit(cache=True)
-def _fill_class(D, s, g, live, r, node, lab, L):
-    """Rebuild the class-g list of row s from the matrix."""
-    Lval, Lnode, Llen, Lstart, Lfull, head = L
-    K = Lval.shape[2]
-    row = D[s]
-    Lv = Lval[s]
-    Ln = Lnode[s]
-    ln = Llen[s]
-    ln[g] = 0
-    c = 0
-    t = np.inf
-    for b in range(r):
-        k = live[b]
-        if k != s and lab[k] == g:
-            c += 1
-            v = row[k]
-            if v < t:
-                _insert(Lv, Ln, ln, g, v, node[k], K)
-                if ln[g] == K:
-                    t = Lv[g, K - 1]
-    Lstart[s, g] = 0
-    Lfull[s, g] = c <= K
-    head[s, g] = Lv[g, 0] if ln[g] > 0 else np.inf
-
-
-@nb.njit(cache=True, inline="always")
-def _better(q, a, b, bq, ba, bb):
-    """Least Q first, then the lowest (row, column) pair (row < column)."""
-    if q < bq:
-        return True
-    if q > bq:
-        return False
-    return a < ba or (a == ba and b < bb)
-
-
-@nb.njit(cache=True)
-def _scan_row(D, s, c, rmax, lowest, best, live, r, node, slot, lab, R, L):
-    """Read the lists of row s while their bounds can reach ``best``.
-
-    ``best`` is (q, i, j); returns the updated triple. A bound is computed as
-    c d − (R_s + R_max) and Q as c d − (R_s + R_k): since R_k <= R_max and
-    rounding is monotone, the bound never exceeds the Q it stands for, so
+    First the Q of each list's first entry from the cached head, node and
+    bound behind it, in a loop of independent loads that the processor can
+    overlap; only the lists whose bound still passes beyond the first entry
+    (or whose first entry is of a joined cluster) are opened after that. A
+    bound is c d − (R_s + R_max) and Q is c d − (R_s + R_k): as R_k <= R_max
+    and rounding is monotone, a bound never exceeds the Q it stands for, so
     the pruning is exact without any tolerance.
     """
-    Lval, Lnode, Llen, Lstart, Lfull, head = L
-    G = Lval.shape[1]
+    head, hmin, hnode, after = L[2], L[3], L[4], L[5]
+    G = head.shape[1]
     bq, bi, bj = best
-    for g in range(G):
-        if rmax[g] == -np.inf:
-            continue
-        sr = R[s] + rmax[g]
-        # head is the first value of the list, possibly of a joined cluster:
-        # still a lower bound for the rest of the list.
-        hb = c * head[s, g] - sr
-        if hb > bq or (hb == bq and s >= bj and bi == lowest):
-            continue
-        refilled = False
-        while True:
-            p = Lstart[s, g]
-            while p < Llen[s, g] and slot[Lnode[s, g, p]] < 0:
-                p += 1
-            Lstart[s, g] = p
-            if p < Llen[s, g]:
-                head[s, g] = Lval[s, g, p]
-            elif Lfull[s, g]:
-                head[s, g] = np.inf
-            stop = False
-            while p < Llen[s, g]:
-                v = Lval[s, g, p]
-                if c * v - sr > bq:
-                    stop = True
-                    break
-                k = slot[Lnode[s, g, p]]
-                if k >= 0:
-                    q = c * v - (R[s] + R[k])
-                    lo, hi = min(s, k), max(s, k)
-                    if _better(q, lo, hi, bq, bi, bj):
-                        bq, bi, bj = q, lo, hi
-                p += 1
-            if stop or Lfull[s, g]:
-                break
-            if Llen[s, g] > 0 and c * Lval[s, g, Llen[s, g] - 1] - sr > bq:
-                break
-            if not refilled:
-                _fill_class(D, s, g, live, r, node, lab, L)
-                refilled = True
+    ns = 0
+    for t in range(m):
+        s = cand[t] // G
+        g = cand[t] - s * G
+        nd = hnode[s, g]
+        k = slot[nd] if nd >= 0 else -1
+        if k >= 0:
+            q = c * head[s, g] - (R[s] + R[k])
+            lo, hi = min(s, k), max(s, k)
+            if better(q, lo, hi, bq, bi, bj):
+                bq, bi, bj = q, lo, hi
+            if c * after[s, g] - (R[s] + rmax[g]) > bq:
                 continue
-            # Even a fresh list is not enough (many equal Q values): read
-            # the whole row once, which covers all its classes and caps the
-            # work per row at that of the plain scan.
-            row = D[s]
-            for b in range(r):
-                k = live[b]
-                if k == s:
-                    continue
-                q = c * row[k] - (R[s] + R[k])
-                lo, hi = min(s, k), max(s, k)
-                if _better(q, lo, hi, bq, bi, bj):
-                    bq, bi, bj = q, lo, hi
-            return bq, bi, bj
+        slow[ns] = cand[t]
+        ns += 1
+    whole = -1
+    for t in range(ns):
+        s = slow[t] // G
+        g = slow[t] - s * G
+        sr = R[s] + rmax[g]
+        hb = c * head[s, g] - sr
+        if s == whole or rmax[g] == -np.inf or hb > bq or (
+                hb == bq and s >= bj and bi == lowest):
+            continue
+        bq, bi, bj, full = read_list(D, born, s, g, c, sr, (bq, bi, bj), live, r, node,
+                                      slot, lab, R, L)
+        if full:
+            whole = s
+        hm = np.inf
+        for e in range(G):
+            hm = min(hm, head[s, e])
+        hmin[s] = hm
     return bq, bi, bj
 
 
 @nb.njit(cache=True)
-def _search(D, live, r, node, slot, lab, R, L, rowlb):
-    """The pair of least Q (ties: lowest rows), as rows (i, j), i < j."""
-    head = L[5]
+def _search(D, born, live, r, node, slot, lab, R, L, rmax, rowlb, cand, slow):
+    """The pair of least Q (ties: lowest rows), as rows (i, j), i < j.
+
+    ``rmax`` holds the largest R of each class (−inf for an empty class);
+    ``rowlb``, ``cand`` and ``slow`` are work space (n, n G and n G).
+    """
+    head, hmin = L[2], L[3]
     n, G = head.shape
     c = float(r - 2)
-    rmax = np.full(G, -np.inf)
-    for a in range(r):
-        s = live[a]
-        g = lab[s]
-        rmax[g] = max(rmax[g], R[s])
-    # A lower bound of Q over each row from its list heads alone.
+    top = rmax.max()
+    # One comparison per row first: c min(head) − (R_s + max R) is below
+    # every class bound of the row (same operations on smaller or equal
+    # operands, and rounding is monotone).
     first = 0
     for a in range(r):
         s = live[a]
-        lb = np.inf
-        for g in range(G):
-            lb = min(lb, c * head[s, g] - (R[s] + rmax[g]))
+        lb = c * hmin[s] - (R[s] + top)
         rowlb[a] = lb
         if lb < rowlb[first]:
             first = a
-    # The most promising row first: its own first live entries give a bound.
-    best = (np.inf, n, n)
+    # The most promising row first, past its joined entries, so that its
+    # first entries give a bound before any list is read further.
     s = live[first]
-    lowest = live[0]
-    Lval, Lnode, Llen, Lstart, Lfull, _ = L
     for g in range(G):
-        p = Lstart[s, g]
-        while p < Llen[s, g] and slot[Lnode[s, g, p]] < 0:
-            p += 1
-        if p < Llen[s, g]:
-            k = slot[Lnode[s, g, p]]
-            q = c * Lval[s, g, p] - (R[s] + R[k])
-            lo, hi = min(s, k), max(s, k)
-            if _better(q, lo, hi, best[0], best[1], best[2]):
-                best = (q, lo, hi)
-    best = _scan_row(D, s, c, rmax, lowest, best, live, r, node, slot, lab, R, L)
+        skip_joined(L, s, g, slot)
+        cand[g] = s * G + g
+    lowest = live[0]
+    best = _visit(D, born, cand, G, c, rmax, lowest, (np.inf, n, n), live, r, node, slot, lab, R,
+                  L, slow)
+    # Then every list whose bound reaches that: rows by the one comparison,
+    # their classes by c head − (R_s + R_max of the class). The selection
+    # is without branches, as about as many rows fail as pass.
+    bq = best[0]
+    m = 0
     for a in range(r):
-        bq, bi, bj = best
-        lb = rowlb[a]
-        # When the best pair (i, j) is on the lowest live row, a row s >= j
-        # whose bound only reaches a tie cannot hold a lower pair.
-        if a == first or lb > bq or (lb == bq and live[a] >= bj and bi == lowest):
-            continue
-        best = _scan_row(D, live[a], c, rmax, lowest, best, live, r, node, slot, lab, R, L)
+        cand[m] = live[a]
+        m += (rowlb[a] <= bq) & (a != first)
+    mc = 0
+    for t in range(m):
+        s = cand[t]
+        Rs = R[s]
+        for g in range(G):
+            slow[mc] = s * G + g
+            mc += c * head[s, g] - (Rs + rmax[g]) <= bq
+    best = _visit(D, born, slow, mc, c, rmax, lowest, best, live, r, node, slot, lab, R, L, cand)
     return best[1], best[2]
 
 
-@nb.njit(cache=True)
+@nb.njit(cache=True, nogil=True)  # bootstrap replicates build their trees side by side on threads
 def nj_kernel(D, bionj, K, G):
     """Join the closest pair by the NJ criterion until three clusters remain.
 
@@ -302,6 +205,7 @@ def nj_kernel(D, bionj, K, G):
     node = np.arange(n)                       # node id on each row
     slot = np.full(m, -1, np.int64)           # row of each live node, -1 once joined
     slot[:n] = np.arange(n)
+    born = np.zeros(n, np.int64)              # when each row's cluster was made (see dist)
     R = np.empty(n, np.float64)
     SV = np.zeros(n, np.float64)
     for i in range(n):
@@ -314,18 +218,23 @@ def nj_kernel(D, bionj, K, G):
     order = np.argsort(R)
     for t in range(n):
         lab[order[t]] = t * G // n
-    # Per row and class: values, node ids, length, first unread entry,
-    # whether the list is the whole class, and the head value (a bound).
-    L = (np.empty((n, G, K), np.float64), np.empty((n, G, K), np.int64),
-         np.zeros((n, G), np.int64), np.zeros((n, G), np.int64),
-         np.zeros((n, G), np.bool_), np.full((n, G), np.inf))
+    L = new_lists(n, G, K)
     rowlb = np.empty(n, np.float64)
+    cand = np.empty(n * G, np.int64)
+    slow = np.empty(n * G, np.int64)
+    size = np.zeros(G, np.int64)              # live clusters per class
+    for s in range(n):
+        size[lab[s]] += 1
     cnt = np.zeros(G, np.int64)
     thr = np.empty(G, np.float64)
+    rmax = np.full(G, -np.inf)
     live = np.arange(n)                       # live rows, ascending
     r = n
     for s in range(n):
-        _fill_row(D, s, live, r, node, lab, L, cnt, thr)
+        cnt[:] = size
+        cnt[lab[s]] -= 1
+        fill_row(D, s, live, r, node, lab, L, cnt, thr)
+        rmax[lab[s]] = max(rmax[lab[s]], R[s])
     t = 0
     while r > 3:
         if r == 4:
@@ -336,16 +245,16 @@ def nj_kernel(D, bionj, K, G):
             # BIONJ's lengths).
             i = live[0]
             j = live[1]
-            bq = 2.0 * D[i, j] - (R[i] + R[j])
+            bq = 2.0 * dist(D, born, i, j) - (R[i] + R[j])
             for b in range(2, 4):
                 k = live[b]
-                q = 2.0 * D[i, k] - (R[i] + R[k])
+                q = 2.0 * dist(D, born, i, k) - (R[i] + R[k])
                 if q < bq:
                     bq, j = q, k
         else:
-            i, j = _search(D, live, r, node, slot, lab, R, L, rowlb)
+            i, j = _search(D, born, live, r, node, slot, lab, R, L, rmax, rowlb, cand, slow)
         c = float(r - 2)
-        dij = D[i, j]
+        dij = dist(D, born, i, j)
         li = 0.5 * dij + (R[i] - R[j]) / (2.0 * c)
         lj = dij - li
         u = n + t
@@ -356,39 +265,69 @@ def nj_kernel(D, bionj, K, G):
         lam = 0.5
         vij = 0.0
         if bionj:
-            vij = V[i, j]
+            vij = dist(V, born, i, j)
             if vij != 0.0:
                 lam = 0.5 + (SV[j] - SV[i]) / (2.0 * c * vij)
                 lam = min(1.0, max(0.0, lam))
         di = D[i]
         dj = D[j]
+        bi, bj = born[i], born[j]
         ru = 0.0
         svu = 0.0
         below = 0
+        # Row i's new lists and next round's class maxima of R are built in
+        # the same pass as the reduction, while the row is in cache.
+        begin_row(L, i, thr)
+        size[lab[i]] -= 1
+        size[lab[j]] -= 1
+        cnt[:] = size
+        Lvi = L[0][i]
+        Lxi = L[1][i]
+        rmax[:] = -np.inf
+        # Bring rows i and j up to date first (see dist), in a loop of
+        # independent loads that the processor can overlap; choosing the
+        # source by index keeps branches on the ages out of it.
+        for b in range(r):
+            k = live[b]
+            bk = born[k]
+            a1, b1 = (k, i) if bk > bi else (i, k)
+            a2, b2 = (k, j) if bk > bj else (j, k)
+            di[k] = D[a1, b1]
+            dj[k] = D[a2, b2]
+            if bionj:
+                V[i, k] = V[a1, b1]
+                V[j, k] = V[a2, b2]
         for b in range(r):
             k = live[b]
             if k == i or k == j:
                 continue
+            dik = di[k]
+            djk = dj[k]
             if bionj:
-                dku = lam * (di[k] - li) + (1.0 - lam) * (dj[k] - lj)
-                vku = lam * V[i, k] + (1.0 - lam) * V[j, k] - lam * (1.0 - lam) * vij
-                SV[k] += vku - V[i, k] - V[j, k]
+                vik = V[i, k]
+                vjk = V[j, k]
+                dku = lam * (dik - li) + (1.0 - lam) * (djk - lj)
+                vku = lam * vik + (1.0 - lam) * vjk - lam * (1.0 - lam) * vij
+                SV[k] += vku - vik - vjk
                 svu += vku
                 V[i, k] = vku
-                V[k, i] = vku
             else:
-                dku = 0.5 * (di[k] + dj[k] - dij)
-            R[k] += dku - di[k] - dj[k]
+                dku = 0.5 * (dik + djk - dij)
+            rk = R[k] + (dku - dik - djk)
+            R[k] = rk
             ru += dku
             di[k] = dku
-            D[k, i] = dku
-        di[j] = 0.0
+            g = lab[k]
+            rmax[g] = max(rmax[g], rk)
+            if dku < thr[g]:
+                insert(Lvi, Lxi, g, dku, node[k], thr)
         R[i] = ru
         SV[i] = svu
         slot[node[i]] = -1
         slot[node[j]] = -1
         node[i] = u
         slot[u] = i
+        born[i] = t + 1
         w = 0
         for b in range(r):
             k = live[b]
@@ -400,11 +339,13 @@ def nj_kernel(D, bionj, K, G):
         r -= 1
         t += 1
         lab[i] = min(G - 1, below * G // max(1, r - 1))
-        _fill_row(D, i, live, r, node, lab, L, cnt, thr)
+        rmax[lab[i]] = max(rmax[lab[i]], ru)
+        size[lab[i]] += 1
+        end_row(L, i, cnt)
     # The last three clusters meet at the root.
     a, b, e = live[0], live[1], live[2]
     root = n + t
-    dab, dae, dbe = D[a, b], D[a, e], D[b, e]
+    dab, dae, dbe = dist(D, born, a, b), dist(D, born, a, e), dist(D, born, b, e)
     parent[node[a]] = root
     parent[node[b]] = root
     parent[node[e]] = root
