@@ -43,11 +43,13 @@ def test_single_precision_agrees_with_double(separated, method):
 
 
 def test_estimate_counts_the_matrices():
-    # n x n float64 (8 bytes) for the matrix, one working copy for NJ, two for BIONJ (common practice).
+    # n x n float64 (8 bytes) for the matrix, one working copy for NJ, two for BIONJ, one triangle
+    # (n (n - 1) / 2 entries, as scipy's condensed form; rounded up to half a matrix) for UPGMA (common practice).
     n = 10_000
     base = estimate_bytes(n)
     assert estimate_bytes(n, method="nj") - base == n * n * 8
     assert estimate_bytes(n, method="bionj") - base == 2 * n * n * 8
+    assert estimate_bytes(n, method="upgma") - base == n * n * 8 // 2
     assert estimate_bytes(n, method="nj", precision="single") < estimate_bytes(n, method="nj")
 
 

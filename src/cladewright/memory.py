@@ -1,7 +1,8 @@
 """How much memory a run needs, checked before it starts.
 
 A run over n taxa holds the n x n distance matrix, and a tree method holds a
-working copy (BIONJ a second one for its variances). A bootstrap holds that
+working copy (NJ a whole matrix, BIONJ a second one for its variances, the
+linkage methods one triangle). A bootstrap holds that
 again in every worker, for the replicate it is building. The estimate is compared with the memory the
 system has available, so that a run that cannot fit stops at once, with the
 options that would fit, instead of failing hours later.
@@ -22,10 +23,11 @@ DISTANCE_WORK = 150 * 2**20
 
 
 def _matrices(method):
-    """n x n matrices a tree method holds besides the input: its working copy, and BIONJ's variances."""
+    """n x n matrices a tree method holds besides the input: NJ its working copy, BIONJ also its
+    variances, the linkage methods one triangle (half a matrix)."""
     if method is None:
         return 0
-    return 2 if method == "bionj" else 1
+    return {"bionj": 2, "nj": 1}.get(method, 0.5)
 
 
 def estimate_bytes(n, *, method=None, precision="double", workers=0):
@@ -46,7 +48,7 @@ def estimate_bytes(n, *, method=None, precision="double", workers=0):
     square = n * n * item
     main = PROCESS_BASE + DISTANCE_WORK + square * (1 + _matrices(method))
     per_worker = DISTANCE_WORK + square * (1 + _matrices(method))  # threads of the same process
-    return main + workers * per_worker
+    return int(main + workers * per_worker)
 
 
 def available_bytes():

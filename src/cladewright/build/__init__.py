@@ -13,6 +13,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
+from ..kernels.matrix import first_non_finite
 from .fit import fit_statistic
 from .linkage import LINKAGE_METHODS, linkage_arrays
 from .nj import nj_arrays
@@ -71,8 +72,8 @@ def build_tree_with_info(dm, method="nj", negative="zero", *, source=None, fit=T
     values = dm.values
     # Matrices made without validation (e.g. by the distance engine) could
     # still carry an undefined distance; the kernels need finite numbers.
-    if not np.isfinite(values).all():
-        i, j = np.argwhere(~np.isfinite(values))[0]
+    i, j = first_non_finite(values)
+    if i >= 0:
         raise InputError(f"distance {names[i]!r}-{names[j]!r} is {float(values[i, j])!r}; every distance must be "
                          "finite (use a model that does not saturate, or drop the pair's taxa)", source=source)
     if m in LINKAGE_METHODS:

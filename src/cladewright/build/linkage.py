@@ -20,7 +20,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from ..kernels.linkage import nn_chain_linkage
+from ..kernels.linkage import condense_upper, nn_chain_linkage
 
 __all__ = ["LanceWilliams", "LINKAGE_METHODS", "linkage_arrays"]
 
@@ -61,8 +61,10 @@ def linkage_arrays(values, method):
     Parameters
     ----------
     values : array_like (n, n), n >= 2
-        Symmetric distances with zero diagonal (float64 or float32; one
-        float64 copy is made, the input is not changed).
+        Symmetric distances with zero diagonal; only the upper triangle is
+        read and the input is not changed. The work space is one condensed
+        copy of that triangle, n (n − 1) / 2 numbers (half a square matrix),
+        in float32 for a float32 matrix and in float64 otherwise.
     method : str
         A key of :data:`LINKAGE_METHODS`.
 
@@ -93,10 +95,17 @@ def linkage_arrays(values, method):
     [1.0, 3.0]
     """
     row = LINKAGE_METHODS[method]
-    D = np.array(values, dtype=working_dtype(values), order="C", copy=True)
-    parent, height = nn_chain_linkage(D, float(row.ai), float(row.aj), float(row.beta),
+    square = np.ascontiguousarray(values, dtype=working_dtype(values))
+    n = square.shape[0]
+    # Allocated here rather than in the kernel so that numpy's large-array
+    # allocator can back it with huge pages (fewer TLB misses on the
+    # one-entry-per-row column reads).
+    C = np.empty(n * (n - 1) // 2, square.dtype)
+    condense_upper(square, C)
+    del square
+    parent, height = nn_chain_linkage(C, n, float(row.ai), float(row.aj), float(row.beta),
                                       float(row.gamma), bool(row.size_weighted))
-    del D
+    del C
     length = np.full(parent.shape[0], np.nan)
     has = parent >= 0
     length[has] = height[parent[has]] - height[has]

@@ -14,7 +14,7 @@ import numpy as np
 
 from ..errors import InputError, SaturationError
 from ..kernels import counts as kc
-from ..kernels.linkage import mirror_upper
+from ..kernels.matrix import mirror_upper
 from ..matrix import DistanceMatrix
 from ..progress import Progress
 from . import nucleotide as nuc

@@ -4,6 +4,16 @@ One kernel serves every reducible linkage whose update is a Lance–Williams
 formula: the coefficients come in as numbers, so a new method is a new row in
 the table of :mod:`cladewright.build.linkage`, not new code here.
 
+The dissimilarities are kept as the condensed upper triangle (half the
+memory of the square). Entry (i, j), i < j, of a matrix
+of dimension m sits at ``rs[i] + j``; row i's entries right of the diagonal
+are contiguous, the ones above it (column i) are one per row. Searches and
+updates visit the above-diagonal part through a sorted list of active rows,
+so retired rows cost nothing there; the contiguous part is read without a
+test, which is why a retired row's column is set to +inf. Once half the
+stored rows are retired the triangle is compacted in place, keeping the
+order of the rows, so the traffic follows the active size.
+
 References
 ----------
 Lance, G. N. & Williams, W. T. (1967) A general theory of classificatory
@@ -16,6 +26,34 @@ arXiv:1109.2378.
 
 import numba as nb
 import numpy as np
+from llvmlite import ir
+from numba import types
+from numba.extending import intrinsic
+
+# Below this many stored rows the triangle fits in cache and compacting
+# would not pay for itself.
+_MIN_COMPACT = 256
+# How many rows ahead the column reads are requested: each is a cache miss
+# of its own, and the out-of-order window alone keeps too few in flight.
+_AHEAD = 32
+
+
+@intrinsic
+def _prefetch(typingctx, arr, idx):
+    """Ask for the cache line of ``arr[idx]`` (LLVM prefetch: read, high
+    locality); a hint only, so an index past the end cannot fault."""
+    sig = types.void(arr, idx)
+
+    def codegen(context, builder, signature, args):
+        ary = context.make_array(signature.args[0])(context, builder, args[0])
+        ptr = builder.gep(ary.data, [args[1]])
+        i32 = ir.IntType(32)
+        fnty = ir.FunctionType(ir.VoidType(), [ptr.type, i32, i32, i32])
+        fn = builder.module.declare_intrinsic("llvm.prefetch", [ptr.type], fnty)
+        builder.call(fn, [ptr, ir.Constant(i32, 0), ir.Constant(i32, 3), ir.Constant(i32, 1)])
+        return context.get_dummy_value()
+
+    return sig, codegen
 
 
 @nb.njit(cache=True, inline="always")
@@ -38,14 +76,73 @@ def _lance_williams(dxk, dyk, dxy, nx, ny, ai, aj, b, g, size_weighted):
     return v + b * dxy + g * abs(dxk - dyk)
 
 
-@nb.njit(cache=True)
-def nn_chain_linkage(D, ai, aj, b, g, size_weighted):
-    """Agglomerate with the nearest-neighbour chain; D is overwritten.
+@nb.njit(cache=True, nogil=True)
+def condense_upper(D, out):
+    """Write the upper triangle of square ``D`` row by row into ``out``.
 
     Parameters
     ----------
-    D : float64 ndarray (n, n)
-        Symmetric dissimilarities, zero diagonal. Used as work space.
+    D : float ndarray (n, n)
+        Read only; the lower triangle is ignored, so a matrix asymmetric
+        within rounding gives one answer whichever half a reader would use.
+    out : float ndarray (n (n − 1) / 2,)
+        Filled in the layout of :func:`nn_chain_linkage`.
+    """
+    n = D.shape[0]
+    k = 0
+    for i in range(n - 1):
+        out[k:k + n - 1 - i] = D[i, i + 1:]
+        k += n - 1 - i
+
+
+@nb.njit(cache=True)
+def _row_starts(m):
+    """Offsets such that entry (i, j), i < j, of dimension m is at rs[i] + j."""
+    rs = np.empty(max(m, 1), np.int64)
+    for i in range(m):
+        rs[i] = i * m - (i * (i + 1)) // 2 - i - 1
+    return rs
+
+
+@nb.njit(cache=True)
+def _compact(C, m, rs, act, na, size, node, chain, clen):
+    """Drop retired rows from the triangle in place, keeping the row order.
+
+    The offset of (i, j) grows with i, j and the dimension, so every entry
+    moves towards the front and is read before anything is written over it.
+    Returns the new row offsets; ``act``, ``size``, ``node`` and ``chain``
+    are renumbered in place.
+    """
+    newrs = _row_starts(na)
+    for a in range(na - 1):
+        src = rs[act[a]]
+        dst = newrs[a]
+        for c in range(a + 1, na):
+            C[dst + c] = C[src + act[c]]
+    newid = np.empty(m, np.int64)
+    for a in range(na):
+        newid[act[a]] = a
+        size[a] = size[act[a]]
+        node[a] = node[act[a]]
+        act[a] = a
+    act[na:] = 0
+    for c in range(clen):
+        chain[c] = newid[chain[c]]
+    return newrs
+
+
+@nb.njit(cache=True, nogil=True)  # bootstrap replicates build their trees side by side on threads
+def nn_chain_linkage(C, n, ai, aj, b, g, size_weighted):
+    """Agglomerate with the nearest-neighbour chain; C is overwritten.
+
+    Parameters
+    ----------
+    C : float64 or float32 ndarray (n (n − 1) / 2,)
+        Condensed upper triangle of the symmetric dissimilarities, row by row
+        (as written by :func:`condense_upper`). Used as work space; the
+        updates are computed in float64 and stored in C's precision.
+    n : int
+        Number of leaves (n >= 2).
     ai, aj, b, g : float
         Lance–Williams coefficients (a_i, a_j, beta, gamma); ``i`` is the
         merged cluster on the lower matrix row, ``j`` the one on the higher.
@@ -70,44 +167,59 @@ def nn_chain_linkage(D, ai, aj, b, g, size_weighted):
     chain): the chain starts at the lowest active row; the nearest neighbour of
     the chain's tip is the previous chain element if it is among the nearest,
     otherwise the lowest row index at the minimum distance; the merged cluster
-    takes the higher of the two rows and the lower row is retired.
+    takes the higher of the two rows and the lower row is retired. Compaction
+    keeps the order of the rows, so the rule is the same as on the full matrix.
 
     References
     ----------
     Murtagh (1983) Computer Journal 26:354–359; Müllner (2011) arXiv:1109.2378;
     Lance & Williams (1967) Computer Journal 9:373–380.
     """
-    n = D.shape[0]
-    mirror_upper(D)
-    size = np.ones(n, np.int64)      # 0 marks a retired row
+    m = n                            # stored dimension (shrinks on compaction)
+    rs = _row_starts(m)
+    # Active rows, ascending, in the first na places; the rest (and
+    # _AHEAD more) hold valid row numbers, so reading ahead needs no test.
+    act = np.zeros(n + _AHEAD, np.int64)
+    act[:n] = np.arange(n)
+    na = n
+    size = np.ones(n, np.int64)
     node = np.arange(n)              # node id held by each row
     chain = np.empty(n, np.int64)
     clen = 0
-    first = 0                        # lowest active row (only ever moves up)
     ma = np.empty(max(n - 1, 0), np.int64)
     mb = np.empty(max(n - 1, 0), np.int64)
     md = np.empty(max(n - 1, 0), np.float64)
     for k in range(n - 1):
         if clen == 0:
-            while size[first] == 0:
-                first += 1
-            chain[0] = first
+            chain[0] = act[0]
             clen = 1
         while True:
             x = chain[clen - 1]
             if clen > 1:
                 y = chain[clen - 2]
-                best = D[x, y]
+                best = float(C[rs[min(x, y)] + max(x, y)])
             else:
                 y = -1
                 best = np.inf
-            row = D[x]
-            for i in range(n):
-                if size[i] == 0 or i == x:
-                    continue
-                if y < 0 or row[i] < best:
-                    best = row[i]
-                    y = i
+            # Ascending row order with a strict '<' is the tie rule; +inf
+            # marks retired columns, which therefore never win.
+            t = 0
+            while act[t] < x:
+                _prefetch(C, rs[act[t + _AHEAD]] + x)
+                v = C[rs[act[t]] + x]
+                if v < best:
+                    best = v
+                    y = act[t]
+                t += 1
+            base = rs[x]
+            for j in range(x + 1, m):
+                v = C[base + j]
+                if v < best:
+                    best = v
+                    y = j
+            if y < 0:                # every distance infinite: lowest other row
+                y = act[1] if act[0] == x else act[0]
+                best = float(C[rs[min(x, y)] + max(x, y)])
             if clen > 1 and y == chain[clen - 2]:
                 break
             chain[clen] = y
@@ -120,17 +232,41 @@ def nn_chain_linkage(D, ai, aj, b, g, size_weighted):
         md[k] = best
         nx = float(size[x])
         ny = float(size[y])
-        rx = D[x]
-        ry = D[y]
-        for i in range(n):
-            if size[i] == 0 or i == x or i == y:
-                continue
-            v = _lance_williams(rx[i], ry[i], best, nx, ny, ai, aj, b, g, size_weighted)
-            ry[i] = v
-            D[i, y] = v
+        # Three ranges of the other active rows i, by where (x, i) and
+        # (i, y) sit in the triangle.
+        t = 0
+        while act[t] < x:
+            i = act[t]
+            _prefetch(C, rs[act[t + _AHEAD]] + x)
+            _prefetch(C, rs[act[t + _AHEAD]] + y)
+            p = rs[i] + x
+            q = rs[i] + y
+            C[q] = _lance_williams(C[p], C[q], best, nx, ny, ai, aj, b, g, size_weighted)
+            C[p] = np.inf
+            t += 1
+        tx = t
+        t += 1
+        rx = rs[x]
+        while act[t] < y:
+            i = act[t]
+            _prefetch(C, rs[act[t + _AHEAD]] + y)
+            q = rs[i] + y
+            C[q] = _lance_williams(C[rx + i], C[q], best, nx, ny, ai, aj, b, g, size_weighted)
+            t += 1
+        ry = rs[y]
+        for u in range(t + 1, na):
+            i = act[u]
+            C[ry + i] = _lance_williams(C[rx + i], C[ry + i], best, nx, ny, ai, aj, b, g,
+                                        size_weighted)
+        for u in range(tx, na - 1):
+            act[u] = act[u + 1]
+        na -= 1
         size[y] = size[x] + size[y]
         size[x] = 0
         node[y] = n + k
+        if 2 * na <= m and m >= _MIN_COMPACT:
+            rs = _compact(C, m, rs, act, na, size, node, chain, clen)
+            m = na
 
     # Heights never decrease towards the root; children precede parents in
     # chain order, so one forward pass suffices.
@@ -152,20 +288,3 @@ def nn_chain_linkage(D, ai, aj, b, g, size_weighted):
         parent[newid[mb[k]]] = p
         height[p] = 0.5 * md[k]
     return parent, height
-
-
-@nb.njit(cache=True)
-def mirror_upper(D):
-    """Copy the upper triangle onto the lower one, in place, in cache blocks.
-
-    A validated matrix may be asymmetric within rounding; the kernels read
-    rows, so both halves must hold the very same numbers for the result not
-    to depend on which half is read.
-    """
-    n = D.shape[0]
-    bs = 64
-    for i0 in range(0, n, bs):
-        for j0 in range(i0, n, bs):
-            for i in range(i0, min(i0 + bs, n)):
-                for j in range(max(j0, i + 1), min(j0 + bs, n)):
-                    D[j, i] = D[i, j]

@@ -41,7 +41,7 @@ WABI 2008, LNCS 5251.
 import numba as nb
 import numpy as np
 
-from .linkage import mirror_upper
+from .matrix import mirror_upper
 from .nj_lists import (begin_row, better, dist, end_row, fill_row, insert, new_lists,
                        read_list, skip_joined)
 

@@ -1,0 +1,33 @@
+"""Whole-matrix passes shared by the distance engine and the tree builders (numba)."""
+
+import numba as nb
+
+
+@nb.njit(cache=True, nogil=True)
+def mirror_upper(D):
+    """Copy the upper triangle onto the lower one, in place, in cache blocks.
+
+    A validated matrix may be asymmetric within rounding; the kernels read
+    rows, so both halves must hold the very same numbers for the result not
+    to depend on which half is read.
+    """
+    n = D.shape[0]
+    bs = 64
+    for i0 in range(0, n, bs):
+        for j0 in range(i0, n, bs):
+            for i in range(i0, min(i0 + bs, n)):
+                for j in range(max(j0, i + 1), min(j0 + bs, n)):
+                    D[j, i] = D[i, j]
+
+
+@nb.njit(cache=True, nogil=True)
+def first_non_finite(D):
+    """(i, j) of the first entry of D, in row order, that is not a finite
+    number, or (-1, -1): one read of the matrix, no n x n temporary."""
+    n, m = D.shape
+    for i in range(n):
+        for j in range(m):
+            x = D[i, j]
+            if not (x - x == 0.0):  # false for nan and +-inf only
+                return i, j
+    return -1, -1
