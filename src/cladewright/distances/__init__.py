@@ -237,7 +237,8 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
 def _count_dict(block, kind):
     """Name the rows of a (n_counts, m) count block."""
     if kind == kc.FULL:
-        full = block.T.reshape(-1, 4, 4)
+        # one pass: transposed to pairs-first and made float64 (slogdet's type) together
+        full = block.T.astype(np.float64).reshape(-1, 4, 4)
         shared = block.sum(axis=0)
         same = block[0] + block[5] + block[10] + block[15]
         return {"shared": shared, "same": same, "full": full,

@@ -135,7 +135,7 @@ def tn93(c, pi, gamma=None):
 
 
 def _logdet_parts(c):
-    full = c["full"].astype(np.float64)
+    full = np.asarray(c["full"], dtype=np.float64)
     total = full.sum(axis=(1, 2))
     f = full / total[:, None, None]
     sign, logabsdet = np.linalg.slogdet(f)
