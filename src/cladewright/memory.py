@@ -2,10 +2,10 @@
 
 A run over n taxa holds the n x n distance matrix, and a tree method holds a
 working copy (NJ a whole matrix, BIONJ a second one for its variances, the
-linkage methods one triangle). A bootstrap holds that
-again in every worker, for the replicate it is building. The estimate is compared with the memory the
-system has available, so that a run that cannot fit stops at once, with the
-options that would fit, instead of failing hours later.
+linkage methods one triangle). A bootstrap holds that again in every worker,
+for the replicate it is building. The estimate is compared with the memory
+the system has available, so that a run that cannot fit stops at once, with
+the options that would fit, instead of failing hours later.
 """
 
 from __future__ import annotations

@@ -20,7 +20,8 @@ from typing import NamedTuple
 
 import numpy as np
 
-from ..kernels.linkage import condense_upper, nn_chain_linkage
+from ..kernels.linkage import nn_chain_linkage
+from ..kernels.matrix import condense_upper
 
 __all__ = ["LanceWilliams", "LINKAGE_METHODS", "linkage_arrays"]
 

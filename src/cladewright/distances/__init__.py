@@ -14,7 +14,7 @@ import numpy as np
 
 from ..errors import InputError, SaturationError
 from ..kernels import counts as kc
-from ..kernels.matrix import mirror_upper
+from ..kernels.matrix import mirror_upper, pairs_before
 from ..matrix import DistanceMatrix
 from ..progress import Progress
 from . import nucleotide as nuc
@@ -253,13 +253,12 @@ def _count_dict(block, kind):
 
 def _pairs_at(flags, r0, n, limit):
     """(i, j) of the first ``limit`` flagged pairs of a block that starts at row r0."""
-    hit = np.flatnonzero(flags)[:limit] + kc.pairs_before(r0, n)
-    # Invert pairs_before: the row i of condensed index p is the largest i
-    # with pairs_before(i) <= p.
+    offset = pairs_before.py_func  # the same formula, on numpy arrays
+    hit = np.flatnonzero(flags)[:limit] + offset(r0, n)
+    # The row i of condensed index p is the largest i with pairs_before(i) <= p.
     rows = np.arange(r0, n)
-    starts = rows * (n - 1) - rows * (rows - 1) // 2
-    i = rows[np.searchsorted(starts, hit, side="right") - 1]
-    j = hit - (i * (n - 1) - i * (i - 1) // 2) + i + 1
+    i = rows[np.searchsorted(offset(rows, n), hit, side="right") - 1]
+    j = hit - offset(i, n) + i + 1
     return [(int(a), int(b)) for a, b in zip(i, j)]
 
 

@@ -13,6 +13,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..kernels import counts as kc
+from ..kernels.matrix import pairs_before
 
 __all__ = ["PackedPatterns", "pack", "iter_count_blocks", "state_frequencies"]
 
@@ -82,7 +83,7 @@ def iter_count_blocks(packed, kind, serial=False):
     planes = kc.transition_planes(packed.planes, packed.valid) if kind == kc.TRANSITIONS else packed.planes
     for r0 in range(0, n, rows):
         r1 = min(n, r0 + rows)
-        m = kc.pairs_before(r1, n) - kc.pairs_before(r0, n)
+        m = pairs_before(r1, n) - pairs_before(r0, n)
         count(planes, packed.valid, packed.word_weight, r0, r1, kind, buf)
         yield r0, r1, buf[:, :m]
 

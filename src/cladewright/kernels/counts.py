@@ -17,6 +17,8 @@ from llvmlite import ir
 from numba import types
 from numba.extending import intrinsic
 
+from .matrix import pairs_before
+
 # Which counts a kernel fills, per pair.
 IDENTITY = 0      # shared sites, identical sites
 TRANSITIONS = 1   # shared, identical, A<->G, C<->T                      (DNA)
@@ -57,13 +59,6 @@ def pack_planes(patterns, order, word_of, bit_of, n_words, n_states):
                 planes[i, word_of[t], s] |= bit
                 valid[i, word_of[t]] |= bit
     return planes, valid
-
-
-@nb.njit(cache=True, nogil=True, inline="always")
-def pairs_before(i, n):
-    """How many pairs (a, b), a < b < n, have a < i: the offset of row i's
-    pairs in the row-major order of the upper triangle."""
-    return i * (n - 1) - i * (i - 1) // 2
 
 
 @nb.njit(cache=True, nogil=True, inline="always")

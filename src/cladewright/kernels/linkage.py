@@ -30,6 +30,8 @@ from llvmlite import ir
 from numba import types
 from numba.extending import intrinsic
 
+from .matrix import pairs_before
+
 # Below this many stored rows the triangle fits in cache and compacting
 # would not pay for itself.
 _MIN_COMPACT = 256
@@ -76,31 +78,12 @@ def _lance_williams(dxk, dyk, dxy, nx, ny, ai, aj, b, g, size_weighted):
     return v + b * dxy + g * abs(dxk - dyk)
 
 
-@nb.njit(cache=True, nogil=True)
-def condense_upper(D, out):
-    """Write the upper triangle of square ``D`` row by row into ``out``.
-
-    Parameters
-    ----------
-    D : float ndarray (n, n)
-        Read only; the lower triangle is ignored, so a matrix asymmetric
-        within rounding gives one answer whichever half a reader would use.
-    out : float ndarray (n (n − 1) / 2,)
-        Filled in the layout of :func:`nn_chain_linkage`.
-    """
-    n = D.shape[0]
-    k = 0
-    for i in range(n - 1):
-        out[k:k + n - 1 - i] = D[i, i + 1:]
-        k += n - 1 - i
-
-
 @nb.njit(cache=True)
 def _row_starts(m):
     """Offsets such that entry (i, j), i < j, of dimension m is at rs[i] + j."""
     rs = np.empty(max(m, 1), np.int64)
     for i in range(m):
-        rs[i] = i * m - (i * (i + 1)) // 2 - i - 1
+        rs[i] = pairs_before(i, m) - i - 1
     return rs
 
 
@@ -139,8 +122,9 @@ def nn_chain_linkage(C, n, ai, aj, b, g, size_weighted):
     ----------
     C : float64 or float32 ndarray (n (n − 1) / 2,)
         Condensed upper triangle of the symmetric dissimilarities, row by row
-        (as written by :func:`condense_upper`). Used as work space; the
-        updates are computed in float64 and stored in C's precision.
+        (as written by :func:`cladewright.kernels.matrix.condense_upper`).
+        Used as work space; the updates are computed in float64 and stored
+        in C's precision.
     n : int
         Number of leaves (n >= 2).
     ai, aj, b, g : float

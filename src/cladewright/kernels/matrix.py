@@ -1,4 +1,5 @@
-"""Whole-matrix passes shared by the distance engine and the tree builders (numba)."""
+"""Whole-matrix passes and the condensed (upper-triangle, row-major) layout,
+shared by the distance engine and the tree builders (numba)."""
 
 import numba as nb
 
@@ -31,3 +32,30 @@ def first_non_finite(D):
             if not (x - x == 0.0):  # false for nan and +-inf only
                 return i, j
     return -1, -1
+
+
+@nb.njit(cache=True, nogil=True, inline="always")
+def pairs_before(i, n):
+    """How many pairs (a, b), a < b < n, have a < i: the offset of row i's
+    pairs in the row-major order of the upper triangle."""
+    return i * (n - 1) - i * (i - 1) // 2
+
+
+@nb.njit(cache=True, nogil=True)
+def condense_upper(D, out):
+    """Write the upper triangle of square ``D`` row by row into ``out``.
+
+    Parameters
+    ----------
+    D : float ndarray (n, n)
+        Read only; the lower triangle is ignored, so a matrix asymmetric
+        within rounding gives one answer whichever half a reader would use.
+    out : float ndarray (n (n − 1) / 2,)
+        Filled row by row: entry (i, j), i < j, at ``pairs_before(i, n) + j - i - 1``
+        (the layout :func:`cladewright.kernels.linkage.nn_chain_linkage` reads).
+    """
+    n = D.shape[0]
+    k = 0
+    for i in range(n - 1):
+        out[k:k + n - 1 - i] = D[i, i + 1:]
+        k += n - 1 - i
