@@ -21,37 +21,87 @@ __all__ = ["DistanceMatrix", "read_distance_matrix"]
 class DistanceMatrix:
     """Names and a symmetric, zero-diagonal, finite, non-negative matrix.
 
+    The matrix keeps its own copy of ``values``, marked read-only, so a
+    checked matrix stays checked: changing the caller's array afterwards
+    leaves it as it was, and writing into ``dm.values`` raises ValueError.
+
     Parameters
     ----------
     names : sequence of str
         Taxon names, unique, in row order.
-    values : array_like, shape (n, n)
-        Distances. Stored as float64 unless ``dtype=np.float32`` is asked for
-        (half the memory, for very large runs).
+    values : array_like of real numbers, shape (n, n)
+        Distances (integers or floats; complex, boolean, text and object
+        arrays are refused). Copied and stored as float64, or float32 when
+        ``dtype=np.float32`` is asked for (half the memory, for very large
+        runs).
     validate : bool
-        Check the matrix (square, symmetric, finite, non-negative, zero
-        diagonal). The distance engine builds matrices that are valid by
-        construction and skips the check.
+        Check the values (finite, non-negative, zero diagonal, symmetric);
+        the shape and the names are always checked. Skip it only for a
+        matrix known to be valid.
+    dtype : {numpy.float64, numpy.float32}
+    source : str, optional
+        File name to put in error messages.
+    info : dict, optional
+        Facts about how the matrix was made, for summaries and reports.
+
+    Raises
+    ------
+    InputError
+        Naming what is wrong with ``names`` or ``values`` and the fix.
 
     Examples
     --------
     >>> dm = DistanceMatrix(["a", "b"], [[0, 0.1], [0.1, 0]])
-    >>> dm.values[0, 1]
+    >>> float(dm.values[0, 1])
     0.1
     """
 
-    __slots__ = ("names", "values", "info")
+    __slots__ = ("_names", "_values", "info")
 
     def __init__(self, names, values, *, validate=True, dtype=np.float64, source=None, info=None):
-        names = tuple(str(x) for x in names)
-        values = np.asarray(values, dtype=dtype)
+        names = _as_names(names, source)
+        dtype = _as_float_dtype(dtype, source)
+        values = _as_values(values, dtype, source)
+        _check_shape(names, values, source)
         if validate:
-            _validate(names, values, source)
-        self.names = names
-        self.values = values
+            _check_values(names, values, source)
+        self._own(names, values, info)
+
+    @classmethod
+    def _adopt(cls, names, values, *, info=None):
+        """Wrap an array the caller made and hands over (no copy, no check).
+
+        For cladewright's own builders only (the distance engine, the TSV
+        reader): an n = 50,000 matrix is 10-20 GB, too much to copy. The array
+        is marked read-only; the caller must keep no writable reference.
+        """
+        self = object.__new__(cls)
+        self._own(tuple(names), values, info)
+        return self
+
+    def _own(self, names, values, info):
+        values.flags.writeable = False
+        # Kept as a view of the frozen array: numpy refuses to make a view
+        # writeable again while its base is read-only.
+        self._names = names
+        self._values = values.view()
         # Facts about how the matrix was made (model, sites used, warnings),
         # carried along to the summary and the report.
         self.info = dict(info or {})
+
+    @property
+    def names(self):
+        """Taxon names (tuple of str), in row order."""
+        return self._names
+
+    @property
+    def values(self):
+        """The read-only n x n distance array."""
+        return self._values
+
+    def __reduce__(self):
+        # Unpickled arrays come back writeable: freeze again on arrival.
+        return _unpickle, (self._names, np.asarray(self._values), self.info)
 
     def __len__(self):
         return len(self.names)
@@ -93,6 +143,10 @@ class DistanceMatrix:
         write_text_atomic(path, self.to_tsv())
 
 
+def _unpickle(names, values, info):
+    return DistanceMatrix._adopt(names, values, info=info)
+
+
 # The reader splits lines at \n (after turning \r\n and \r into \n) and
 # cells at tabs, and refuses NUL (binary); every other character survives a
 # round trip.
@@ -105,11 +159,57 @@ _CELL = re.compile(_NUM, re.I)
 _ROW_CELLS = re.compile(rf"(?:\t{_NUM})*", re.I)
 
 
+_KINDS = {"c": "complex", "b": "true/false", "O": "Python objects", "U": "text", "S": "bytes", "M": "date",
+          "m": "time span", "V": "structured"}
+
+
+def _as_names(names, source):
+    try:
+        return tuple(str(x) for x in names)
+    except TypeError:
+        raise InputError(f"names is {type(names).__name__}, not a sequence of taxon names; give one name per row",
+                         source=source) from None
+
+
+def _as_float_dtype(dtype, source):
+    try:
+        dt = np.dtype(dtype)
+    except TypeError:
+        dt = None
+    if dt is None or dt not in (np.dtype(np.float64), np.dtype(np.float32)):  # None == float64 to numpy
+        raise InputError(f"dtype={dtype!r} is not supported; give numpy.float64 or numpy.float32", source=source)
+    return dt
+
+
+def _as_values(values, dtype, source):
+    """A C-ordered array of ``dtype`` that no caller holds: always a copy of a
+    caller's array, since the matrix must not change after it was checked."""
+    if isinstance(values, np.ma.MaskedArray) and np.ma.getmaskarray(values).any():
+        raise InputError("values has masked cells; fill them (every distance must be given) or remove those taxa",
+                         source=source)
+    try:
+        arr = np.asarray(values)
+    except (TypeError, ValueError):
+        raise InputError("values is not a rectangular array of numbers; give an n x n array, one row and one "
+                         "column per taxon", source=source) from None
+    if arr.dtype.kind not in "iuf":
+        # np.asarray(..., float) would drop imaginary parts with only a
+        # warning and read booleans and digit strings as numbers.
+        what = _KINDS.get(arr.dtype.kind, "non-numeric")
+        raise InputError(f"values has dtype {arr.dtype} ({what}); distances must be real numbers: give an int or "
+                         "float array", source=source)
+    if isinstance(values, (list, tuple)):
+        return np.ascontiguousarray(arr, dtype=dtype)  # np.asarray made it: nobody else holds it
+    return np.array(arr, dtype=dtype, order="C", copy=True)
+
+
 def _validate(names, values, source, where=None):
     """Check a matrix; ``where(i, j)`` gives the file position of cell (i, j)."""
-    def at(i, j):
-        return f"{where(int(i), int(j))}: " if where is not None else ""
+    _check_shape(names, values, source)
+    _check_values(names, values, source, where)
 
+
+def _check_shape(names, values, source):
     n = len(names)
     if values.ndim != 2 or values.shape[0] != values.shape[1]:
         raise InputError(f"the matrix is {values.shape}, not square; give one row and one column per taxon",
@@ -123,6 +223,13 @@ def _validate(names, values, source, where=None):
             raise InputError(f"taxon {name!r} appears twice (rows {seen[name] + 1} and {i + 1}); "
                              "give every taxon a unique name", source=source)
         seen[name] = i
+
+
+def _check_values(names, values, source, where=None):
+    def at(i, j):
+        return f"{where(int(i), int(j))}: " if where is not None else ""
+
+    n = len(names)
     bad = ~np.isfinite(values)
     if bad.any():
         i, j = np.argwhere(bad)[0]
@@ -172,7 +279,7 @@ def read_distance_matrix(path, *, text=None):
 
     Examples
     --------
-    >>> read_distance_matrix("m.tsv", text="\ta\tb\na\t0\t0.5\nb\t0.5\t0\n").values[0, 1]
+    >>> print(float(read_distance_matrix("m.tsv", text="\ta\tb\na\t0\t0.5\nb\t0.5\t0\n").values[0, 1]))
     0.5
     """
     source = os.fspath(path)
@@ -225,4 +332,4 @@ def read_distance_matrix(path, *, text=None):
         values[r] = list(map(float, cells[1:]))
     lines = [ln for ln, _ in rows]
     _validate(names, values, source, where=lambda i, j: f"line {lines[i]}, column {j + 2}")
-    return DistanceMatrix(names, values, validate=False, source=source)
+    return DistanceMatrix._adopt(names, values)

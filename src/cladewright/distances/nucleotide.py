@@ -7,6 +7,12 @@ shape (4,) or (m, 4); ``gamma`` the shape alpha of the gamma distribution of
 rates across sites, or None. Where a logarithm's argument is <= 0 the
 distance is undefined and returned as NaN; the caller reports it.
 
+Each -ln w below is taken as -log1p(-y) of the deficit y = 1 - w, exact for
+close sequences (y near 0), and each gamma form a (w^(-1/a) - 1) as
+a expm1(-ln(w) / a): written as it stands, w^(-1/a) - 1 loses digits as the
+shape a grows (about 1e-7 relative at a = 1e8) and is 0 from a ~ 1e15, where
+the distance should approach its limit, the plain form.
+
 With P the proportion of transitions (P1: A<->G, P2: C<->T), Q of
 transversions and p of differences, over the shared sites:
 
@@ -40,12 +46,26 @@ import numpy as np
 __all__ = ["p_distance", "jc69", "f81", "k2p", "f84", "t92", "tn93", "logdet", "paralinear"]
 
 
-def _neglog(w, gamma):
-    """-ln w, or its gamma form a (w^(-1/a) - 1); NaN where w <= 0."""
-    w = np.where(w > 0, w, np.nan)
+def _neglog(y, gamma):
+    """-ln(1 - y), or its gamma form a [(1 - y)^(-1/a) - 1]; NaN where y >= 1.
+
+    The gamma form is a expm1(x) with x = -ln(1 - y) / a, which tends to
+    -ln(1 - y) as a grows (the plain form is its limit, Jin & Nei 1990). For
+    |x| < 1e-8 it is taken as -ln(1 - y) (1 + x/2 + x^2/6), the series of
+    expm1(x)/x, whose next term (x^3/24) is below double precision: this
+    also keeps full precision where x itself underflows (a near 1e300).
+
+    References
+    ----------
+    Jin, L. & Nei, M. (1990) Mol. Biol. Evol. 7:82–102.
+    """
+    y = np.where(y < 1, y, np.nan)
+    plain = -np.log1p(-y)
     if gamma is None:
-        return -np.log(w)
-    return gamma * (np.power(w, -1.0 / gamma) - 1.0)
+        return plain
+    x = plain / gamma
+    small = np.abs(x) < 1e-8
+    return np.where(small, plain * (1.0 + x * (0.5 + x / 6.0)), gamma * np.expm1(x))
 
 
 def _proportions(c):
@@ -70,7 +90,7 @@ def p_distance(c, pi=None, gamma=None):
 
 
 def _equal_input(p, b, gamma):
-    return b * _neglog(1.0 - p / b, gamma)
+    return b * _neglog(p / b, gamma)
 
 
 def jc69(c, pi=None, gamma=None):
@@ -88,9 +108,7 @@ def k2p(c, pi=None, gamma=None):
     """K2P (Kimura 1980); gamma form of Jin & Nei (1990)."""
     _, _, p1, p2, q = _proportions(c)
     ts = p1 + p2
-    w1 = 1.0 - 2.0 * ts - q
-    w2 = 1.0 - 2.0 * q
-    return 0.5 * _neglog(w1, gamma) + 0.25 * _neglog(w2, gamma)
+    return 0.5 * _neglog(2.0 * ts + q, gamma) + 0.25 * _neglog(2.0 * q, gamma)
 
 
 def f84(c, pi, gamma=None):
@@ -102,9 +120,9 @@ def f84(c, pi, gamma=None):
     big_a = a_ * g_ / pr + c_ * t_ / py
     big_b = a_ * g_ + c_ * t_
     big_c = pr * py
-    w1 = 1.0 - ts / (2.0 * big_a) - (big_a - big_b) * q / (2.0 * big_a * big_c)
-    w2 = 1.0 - q / (2.0 * big_c)
-    return 2.0 * big_a * _neglog(w1, None) - 2.0 * (big_a - big_b - big_c) * _neglog(w2, None)
+    y1 = ts / (2.0 * big_a) + (big_a - big_b) * q / (2.0 * big_a * big_c)
+    y2 = q / (2.0 * big_c)
+    return 2.0 * big_a * _neglog(y1, None) - 2.0 * (big_a - big_b - big_c) * _neglog(y2, None)
 
 
 def t92(c, pi, gamma=None):
@@ -117,8 +135,8 @@ def t92(c, pi, gamma=None):
     # h = 0 (no G+C, or only G+C) leaves no transitions possible (P = 0), and
     # h ln(1 - P/h - Q) -> 0 as h -> 0: the first term vanishes.
     with np.errstate(divide="ignore", invalid="ignore"):
-        first = np.where(h > 0, h * _neglog(1.0 - ts / np.where(h > 0, h, 1.0) - q, None), 0.0)
-    return first + 0.5 * (1.0 - h) * _neglog(1.0 - 2.0 * q, None)
+        first = np.where(h > 0, h * _neglog(ts / np.where(h > 0, h, 1.0) + q, None), 0.0)
+    return first + 0.5 * (1.0 - h) * _neglog(2.0 * q, None)
 
 
 def tn93(c, pi, gamma=None):
@@ -126,12 +144,12 @@ def tn93(c, pi, gamma=None):
     _, _, p1, p2, q = _proportions(c)
     a_, c_, g_, t_ = _bases(pi)
     pr, py = a_ + g_, c_ + t_
-    w1 = 1.0 - pr * p1 / (2.0 * a_ * g_) - q / (2.0 * pr)
-    w2 = 1.0 - py * p2 / (2.0 * c_ * t_) - q / (2.0 * py)
-    w3 = 1.0 - q / (2.0 * pr * py)
+    y1 = pr * p1 / (2.0 * a_ * g_) + q / (2.0 * pr)
+    y2 = py * p2 / (2.0 * c_ * t_) + q / (2.0 * py)
+    y3 = q / (2.0 * pr * py)
     k3 = pr * py - a_ * g_ * py / pr - c_ * t_ * pr / py
-    return (2.0 * a_ * g_ / pr * _neglog(w1, gamma) + 2.0 * c_ * t_ / py * _neglog(w2, gamma)
-            + 2.0 * k3 * _neglog(w3, gamma))
+    return (2.0 * a_ * g_ / pr * _neglog(y1, gamma) + 2.0 * c_ * t_ / py * _neglog(y2, gamma)
+            + 2.0 * k3 * _neglog(y3, gamma))
 
 
 def _logdet_parts(c):

@@ -20,10 +20,10 @@ __all__ = ["poisson", "kimura_protein"]
 
 def poisson(c, pi=None, gamma=None):
     """Poisson correction (Zuckerkandl & Pauling 1965), with its gamma form."""
-    return _neglog(1.0 - _proportions(c)[1], gamma)
+    return _neglog(_proportions(c)[1], gamma)
 
 
 def kimura_protein(c, pi=None, gamma=None):
     """Kimura's (1983) approximation to the PAM correction."""
     p = _proportions(c)[1]
-    return _neglog(1.0 - p - 0.2 * p * p, None)
+    return _neglog(p + 0.2 * p * p, None)
