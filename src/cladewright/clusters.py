@@ -99,12 +99,42 @@ def clade_diameters(tree):
     return np.array(diam), np.array(best1)
 
 
-def clusters_within(tree, d, *, root="auto"):
+def _branch_name(tree, v):
+    """'the branch above taxon x' or 'the branch above the clade of a, b and 3 more'."""
+    names = tree.leaf_names
+    if v < tree.n_leaves:
+        return f"the branch above taxon {names[v]!r}"
+    lo, hi, leafseq = tree._leaf_intervals()
+    below = sorted(names[i] for i in leafseq[lo[v]:hi[v]].tolist())
+    shown = ", ".join(repr(x) for x in below[:2]) + (f" and {len(below) - 2} more" if len(below) > 2 else "")
+    return f"the branch above the clade of {shown}"
+
+
+def _need_lengths(tree, source=None):
+    """Raise InputError unless every branch has a length: a path length
+    cannot be measured over a branch without one (counting it as 0 would put
+    taxa into one group silently)."""
+    branches = np.flatnonzero(tree.parent >= 0)
+    missing = branches[~np.isfinite(tree.length[branches])]
+    if missing.size == 0:
+        return
+    if missing.size == branches.size:
+        raise InputError("the tree has no branch lengths, so taxa cannot be grouped by path length; give a tree "
+                         "with branch lengths", source=source)
+    shown = "; ".join(_branch_name(tree, int(v)) for v in missing[:3])
+    more = f"; and {missing.size - 3} more" if missing.size > 3 else ""
+    verb = "has" if missing.size == 1 else "have"
+    raise InputError(f"{missing.size} of the tree's {branches.size} branches {verb} no length ({shown}{more}), "
+                     "so taxa cannot be grouped by path length; give every branch a length", source=source)
+
+
+def clusters_within(tree, d, *, root="auto", source=None):
     """Split the leaves into the largest clades of diameter at most ``d``.
 
     Parameters
     ----------
     tree : Tree
+        Every branch must have a length.
     d : float
         Threshold on path length (substitutions per site for a distance
         tree), >= 0. Inclusive: a clade whose diameter equals ``d`` (within a
@@ -112,6 +142,8 @@ def clusters_within(tree, d, *, root="auto"):
     root : {"auto", "stored", "midpoint"}
         ``auto``: a rooted tree as stored, an unrooted one midpoint-rooted
         first; ``stored``: the stored root; ``midpoint``: always midpoint-root.
+    source : str, optional
+        Name of the tree's file, for error messages.
 
     Returns
     -------
@@ -121,6 +153,12 @@ def clusters_within(tree, d, *, root="auto"):
         of their alphabetically first taxon name.
     sizes : int64 array (G,)
         ``sizes[g - 1]`` is the number of taxa in group ``g`` (non-increasing).
+
+    Raises
+    ------
+    InputError
+        A threshold that is not a finite number >= 0; a tree with a branch
+        without a length (the message names up to three such branches).
 
     References
     ----------
@@ -142,10 +180,10 @@ def clusters_within(tree, d, *, root="auto"):
         raise InputError(f"the distance threshold {d} must be a finite number >= 0; give a value such as 0.02")
     if root not in ("auto", "stored", "midpoint"):
         raise ValueError(f"root must be 'auto', 'stored' or 'midpoint', not {root!r}")
+    _need_lengths(tree, source)
     if root == "midpoint" or (root == "auto" and not tree.rooted and tree.n_leaves > 1):
         from .rooting import midpoint_root
-        if np.any(np.isfinite(tree.length)):
-            tree = midpoint_root(tree)
+        tree = midpoint_root(tree)
     n = tree.n_leaves
     diam, _ = clade_diameters(tree)
     within = diam <= d * (1.0 + REL_TOL)

@@ -44,6 +44,8 @@ def _rc(salt):
 
 
 def _support_text(value):
+    if abs(value) >= 1000:  # not a percentage; keep the label short
+        return f"{value:.3g}"
     r = round(value)
     return str(int(r)) if abs(value - r) < 0.05 else f"{value:.1f}"
 
@@ -56,7 +58,9 @@ def tree_figure(tree, highlight_below=None, ladderize=True, title=None, *, group
     tree : Tree
     highlight_below : float, optional
         Support values (percentages) below this are drawn in orange with an
-        open ring on their node, and a note says so.
+        open ring on their node, and a note says so. Support read from a
+        file on a 0-1 scale (:meth:`cladewright.tree.Tree.support_percent`)
+        is drawn, and compared, as percentages.
     ladderize : bool
         Smaller clades above larger ones; else the stored order.
     title : str, optional
@@ -155,7 +159,7 @@ def tree_figure(tree, highlight_below=None, ladderize=True, title=None, *, group
                     color=colour[i] if groups is not None else "#1b1f24", clip_on=False)
         low_x, low_y = [], []
         if support:
-            sup = tree.support
+            sup, _ = tree.support_percent()
             root_kids = kids[root]
             skip = -1
             if len(root_kids) == 2 and min(root_kids) >= n and sup[root_kids[0]] == sup[root_kids[1]]:
@@ -249,7 +253,9 @@ def render_tree(tree, path, highlight_below=None, ladderize=True, title=None, *,
     -------
     >>> from cladewright.tree import Tree
     >>> t = Tree([3, 3, 3, -1], [0.1, 0.2, 0.3, np.nan], ["a", "b", "c"])
-    >>> render_tree(t, "/tmp/cladewright_doc_example.svg")  # doctest: +SKIP
+    >>> import tempfile
+    >>> with tempfile.TemporaryDirectory() as folder:
+    ...     render_tree(t, os.path.join(folder, "tree.svg"))
     'svg'
     """
     from .io.files import atomic_output

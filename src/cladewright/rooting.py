@@ -9,7 +9,8 @@ branches on the path from that branch to the old root change direction.
 
 Support belongs to branches (to the split a branch makes), not to nodes: when
 a branch changes direction its support and length move with it to the node
-now below it, so every split keeps its support. The two halves of the cut
+now below it, so every split keeps its support (and the text it was read
+from, so that it is written back exactly as read). The two halves of the cut
 branch make one split and both carry its support. Non-numeric internal labels
 stay with their nodes; a label on a dissolved root is dropped.
 
@@ -31,10 +32,6 @@ from .tree import Tree
 __all__ = ["midpoint_root", "outgroup_root", "root_tree"]
 
 
-def _first_finite(a, b):
-    return a if a == a else b
-
-
 def _unrooted_arrays(tree):
     """The tree with its root dissolved, as arrays over the original node ids.
 
@@ -48,11 +45,17 @@ def _unrooted_arrays(tree):
         False for dissolved root nodes.
     post : int64 array
         Live nodes, children before parents (a postorder of ``par``).
+    text : object array (m,)
+        The text each support value was read from (None where none), moved
+        with its support.
     """
     n = tree.n_leaves
     par = tree.parent.copy()
     length = np.array(tree.length, dtype=np.float64)
     support = np.array(tree.support, dtype=np.float64)
+    text = np.empty(tree.n_nodes, dtype=object)
+    if tree.support_text is not None:
+        text[:] = tree.support_text
     alive = np.ones(tree.n_nodes, dtype=bool)
     root = tree.root
     kids = tree.children(root)
@@ -62,6 +65,7 @@ def _unrooted_arrays(tree):
         root = int(kids[0])
         par[root] = -1
         length[root] = support[root] = np.nan
+        text[root] = None
         kids = tree.children(root)
     if root >= n and kids.size == 2:
         a, b = int(kids[0]), int(kids[1])
@@ -73,23 +77,26 @@ def _unrooted_arrays(tree):
         par[a] = b
         length[a] = np.nan if (la != la and lb != lb) else np.nansum([la, lb])
         # Tree.splits reports a root split under the first child: prefer it.
-        support[a] = _first_finite(support[a], support[b])
+        if support[a] != support[a]:
+            support[a], text[a] = support[b], text[b]
         length[b] = support[b] = np.nan
+        text[b] = None
     post = tree.postorder()
     post = post[alive[post]]
-    return par, length, support, alive, post
+    return par, length, support, alive, post, text
 
 
 def _cut(tree, arrays, u, x):
     """A rooted Tree with its root on the branch from ``u`` to ``par[u]``, at
     distance ``x`` from ``u`` (``x`` nan when the branch has no length)."""
-    par, length, support, alive, _ = arrays
+    par, length, support, alive, _, text = arrays
     n, m = tree.n_leaves, tree.n_nodes
     w = int(par[u])
     total = length[u]
     new_par = np.append(par, -1)
     new_len = np.append(length, np.nan)
     new_sup = np.append(support, np.nan)
+    new_text = np.append(text, None)
     # The path from w up to the top changes direction: each node hangs from
     # the one it used to be the parent of, taking that branch's length and
     # support with it.
@@ -102,6 +109,7 @@ def _cut(tree, arrays, u, x):
     new_par[path[1:]] = path[:-1]
     new_len[path[1:]] = length[path[:-1]]
     new_sup[path[1:]] = support[path[:-1]]
+    new_text[path[1:]] = text[path[:-1]]
     r = m
     new_par[u] = new_par[w] = r
     if total == total:
@@ -110,6 +118,7 @@ def _cut(tree, arrays, u, x):
     else:
         new_len[u] = new_len[w] = np.nan
     new_sup[u] = new_sup[w] = support[u]
+    new_text[u] = new_text[w] = text[u]
     internal = np.flatnonzero(alive[n:]) + n
     keep = np.concatenate([np.arange(n), internal, [r]])
     index = np.full(m + 1, -1, dtype=np.int64)
@@ -117,7 +126,8 @@ def _cut(tree, arrays, u, x):
     parent = np.where(new_par[keep] >= 0, index[new_par[keep]], -1)
     old_labels = list(tree.labels) + [None]
     labels = [old_labels[v] for v in keep.tolist()]
-    return Tree(parent, new_len[keep], tree.leaf_names, support=new_sup[keep], labels=labels, rooted=True)
+    return Tree(parent, new_len[keep], tree.leaf_names, support=new_sup[keep], labels=labels, rooted=True,
+                support_text=new_text[keep].tolist())
 
 
 def _need_two(tree, what):
@@ -164,7 +174,7 @@ def midpoint_root(tree):
     if not np.any(np.isfinite(tree.length)):
         raise InputError("the tree has no branch lengths, so it has no midpoint; root it on an outgroup instead")
     arrays = _unrooted_arrays(tree)
-    par, length, _, _, post = arrays
+    par, length, _, _, post, _ = arrays
     n, m = tree.n_leaves, tree.n_nodes
     ln = np.nan_to_num(length, nan=0.0).tolist()
     best1 = [0.0 if v < n else -math.inf for v in range(m)]
@@ -270,7 +280,7 @@ def outgroup_root(tree, taxa):
     out = _resolve_names(tree, taxa)
     n, k = tree.n_leaves, out.size
     arrays = _unrooted_arrays(tree)
-    par, length, _, _, post = arrays
+    par, length, _, _, post, _ = arrays
     size = np.zeros(tree.n_nodes, dtype=np.int64)
     size[:n] = 1
     hits = np.zeros(tree.n_nodes, dtype=np.int64)
@@ -294,7 +304,7 @@ def outgroup_root(tree, taxa):
 
 def _not_a_clade(tree, arrays, out, size, hits, edges):
     """Raise the error naming the taxa that keep ``out`` from being a clade."""
-    par, _, _, _, post = arrays
+    par, _, _, _, post, _ = arrays
     n, k = tree.n_leaves, out.size
     s, h = size[edges], hits[edges]
     below = np.where(h == k, s - k, n + 1)      # the side under the branch holds the outgroup

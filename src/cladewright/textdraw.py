@@ -108,6 +108,8 @@ def nice_length(span):
 def _support_text(value):
     if value != value:
         return ""
+    if abs(value) >= 1000:  # not a percentage; keep the label short
+        return f"{value:.3g}"
     r = round(value)
     return str(int(r)) if abs(value - r) < 0.05 else f"{value:.1f}"
 
@@ -148,7 +150,9 @@ def text_tree(tree, width=None, *, ascii=False, ladderize=True, support=True):
     ladderize : bool
         Smaller clades above larger ones.
     support : bool
-        Write support values on the branches above internal nodes.
+        Write support values on the branches above internal nodes, as
+        percentages (support read on a 0-1 scale is multiplied by 100, see
+        :meth:`cladewright.tree.Tree.support_percent`).
 
     Returns
     -------
@@ -174,7 +178,7 @@ def text_tree(tree, width=None, *, ascii=False, ladderize=True, support=True):
     n, m = tree.n_leaves, tree.n_nodes
     x, y, kids, rows, has_lengths = tree_layout(tree, ladderize)
     names = tree.leaf_names
-    sup = tree.support.tolist()
+    sup = tree.support_percent()[0].tolist()
     root = tree.root
     labels = [""] * m
     if support:

@@ -45,10 +45,17 @@ class Tree:
     leaf_names : sequence of str, length n
         Unique leaf names, in leaf index order.
     support : array_like of float, shape (m,), optional
-        Support of the branch above each internal node, as a percentage;
-        ``nan`` means none.
+        Support of the branch above each internal node, as a percentage
+        (values read from a file stay as written, which may be proportions:
+        see :meth:`support_percent`); ``nan`` means none.
     labels : list of (str or None), length m, optional
         Non-numeric internal node labels kept from a file.
+    support_text : list of (str or None), length m, optional
+        The text each support value was read from (``"0.9987"``, ``"95.0"``,
+        ``"1e308"``), so that a tool that moves support without computing it
+        writes it back exactly as read. A writer uses an entry only while it
+        still reads as the node's support value; :meth:`with_support` drops
+        them all.
     rooted : bool
         Whether the root is meaningful. An unrooted tree is normally stored
         with a root of degree 3.
@@ -64,10 +71,11 @@ class Tree:
     '(a:0.1,b:0.2,c:0.3);\\n'
     """
 
-    __slots__ = ("_parent", "_length", "_support", "_labels", "_leaf_names", "rooted",
+    __slots__ = ("_parent", "_length", "_support", "_labels", "_support_text", "_leaf_names", "rooted",
                  "_root", "_ptr", "_kids", "_pre", "_post", "_intervals", "_leaf_index")
 
-    def __init__(self, parent, length, leaf_names, *, support=None, labels=None, rooted=False):
+    def __init__(self, parent, length, leaf_names, *, support=None, labels=None, rooted=False,
+                 support_text=None):
         parent = np.array(parent, dtype=np.int64).reshape(-1)
         m = parent.shape[0]
         length = np.array(length, dtype=np.float64).reshape(-1)
@@ -91,6 +99,14 @@ class Tree:
             labels = list(labels)
             if len(labels) != m:
                 raise ValueError(f"labels has {len(labels)} entries, expected {m}")
+        if support_text is not None:
+            support_text = tuple(support_text)
+            if len(support_text) != m:
+                raise ValueError(f"support_text has {len(support_text)} entries, expected {m}")
+            if not all(x is None or isinstance(x, str) for x in support_text):
+                raise ValueError("support_text entries must be str or None")
+            if all(x is None for x in support_text):
+                support_text = None
         if len(set(names)) != n:
             seen = set()
             dup = next(x for x in names if x in seen or seen.add(x))
@@ -111,6 +127,7 @@ class Tree:
             a.flags.writeable = False
         self._parent, self._length, self._support = parent, length, support
         self._labels, self._leaf_names, self.rooted = labels, names, bool(rooted)
+        self._support_text = support_text
         self._root = int(roots[0])
         self._ptr, self._kids = _children_csr(parent, n)
         self._pre = _preorder(self._ptr, self._kids, self._root, mirror=False)
@@ -160,6 +177,12 @@ class Tree:
     def labels(self):
         """Internal node labels kept from a file (list of str or None, length m)."""
         return self._labels
+
+    @property
+    def support_text(self):
+        """Text each support value was read from (tuple of str or None,
+        length m), or None when no support value was read from a file."""
+        return self._support_text
 
     def __repr__(self):
         kind = "rooted" if self.rooted else "unrooted"
@@ -301,6 +324,29 @@ class Tree:
         post = np.ascontiguousarray(self.postorder())
         return patristic_distances(parent, length, post, self.n_leaves)
 
+    def support_percent(self):
+        """Support as percentages, and whether it was read as proportions.
+
+        Support read from a file (:attr:`support_text` set) whose every
+        value lies within [0, 1] is on a 0-1 scale (common practice: some
+        programs write proportions, bootstrap support is usually written in
+        percent) and is multiplied by 100; any other support is taken as
+        percentages already. Computed support (no text) is always percent.
+
+        Returns
+        -------
+        percent : float64 ndarray, shape (m,)
+            nan where there is no support.
+        proportions : bool
+            True when the values were read on a 0-1 scale.
+        """
+        s = np.array(self._support, dtype=np.float64)
+        branch = np.arange(s.size) != self._root  # a label on the root is on no branch
+        finite = s[branch & np.isfinite(s)]
+        if self._support_text is not None and finite.size and np.all((finite >= 0) & (finite <= 1)):
+            return s * 100.0, True
+        return s, False
+
     def with_support(self, support):
         """A new Tree with the same shape, lengths and labels and ``support``.
 
@@ -317,6 +363,8 @@ class Tree:
         for slot in Tree.__slots__:
             setattr(new, slot, getattr(self, slot))
         new._support = support
+        # The values are replaced: the text they were read from no longer applies.
+        new._support_text = None
         return new
 
     # ---- output -----------------------------------------------------------

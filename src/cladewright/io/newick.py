@@ -5,7 +5,8 @@ informal specification): labels may be quoted with ``'...'`` (``''`` for an
 inner quote); an unquoted label has its underscores read as spaces; comments
 in square brackets are skipped, except that ``[&R]`` / ``[&U]`` before a tree
 says whether it is rooted. A numeric internal label is read as a support
-value, any other internal label is kept. The tokenizer and parser are
+value (its text kept beside it, so that support a tool did not compute is
+written back exactly as read), any other internal label is kept. The tokenizer and parser are
 iterative, so very deep trees do not hit a recursion limit.
 
 Writing quotes every label that would not read back exactly.
@@ -148,9 +149,10 @@ def _parse_span(text, start, end, source, expect_one=False):
                 state = 2
             elif state == 2 and internal[cur] and not has_label:
                 if kind == "word":
-                    # unquoted numbers on internal nodes are support values
+                    # unquoted numbers on internal nodes are support values;
+                    # their text is kept so a tool can write them back as read
                     value = _number(tok)
-                    lab[cur] = value if value is not None else label
+                    lab[cur] = (value, tok) if value is not None else label
                 else:
                     lab[cur] = label
                 has_label = True
@@ -249,13 +251,14 @@ def _make_tree(text, par, lab, ln, internal, npos, rooted_flag, source):
     length[new_id] = np.array(ln, dtype=np.float64)
     support = np.full(total, np.nan)
     labels = [None] * total
+    texts = [None] * total
     base = n
     for j, i in enumerate(int_tmp.tolist()):
         x = lab[i]
         if x is None:
             continue
-        if isinstance(x, float):
-            support[base + j] = x
+        if isinstance(x, tuple):
+            support[base + j], texts[base + j] = x
         else:
             labels[base + j] = x
     root = int(new_id[np.flatnonzero(~has_par)[0]])
@@ -264,7 +267,7 @@ def _make_tree(text, par, lab, ln, internal, npos, rooted_flag, source):
     else:
         rooted = rooted_flag
     try:
-        return Tree(parent, length, names, support=support, labels=labels, rooted=rooted)
+        return Tree(parent, length, names, support=support, labels=labels, rooted=rooted, support_text=texts)
     except ValueError as err:
         # the parser builds valid arrays; this guards a reader from ever
         # failing with anything but InputError
@@ -304,18 +307,34 @@ def format_support(x, support_digits=0):
     return format(float(x), f".{int(support_digits)}f")
 
 
+def _kept_text(tree):
+    """Per node, the text a support value was read from while it still reads
+    as that value (else None): support a tool moved but did not compute is
+    written back exactly as it was read."""
+    texts = tree.support_text
+    if texts is None:
+        return [None] * tree.n_nodes
+    support = tree.support.tolist()
+    out = [None] * tree.n_nodes
+    for v, t in enumerate(texts):
+        if t is not None and _number(t) == support[v]:
+            out[v] = t
+    return out
+
+
 def _node_texts(tree, digits, support_digits, leaf_text=None):
     """Text after each node's subtree: its label or support and ':length'."""
     n, m = tree.n_leaves, tree.n_nodes
     length, support, labels = tree.length.tolist(), tree.support.tolist(), tree.labels
     names = tree.leaf_names if leaf_text is None else leaf_text
     root = tree.root
+    kept = _kept_text(tree)
     out = [""] * m
     for v in range(m):
         if v < n:
             s = quote_label(names[v]) if leaf_text is None else names[v]
         elif v != root and support[v] == support[v]:
-            s = format_support(support[v], support_digits)
+            s = kept[v] or format_support(support[v], support_digits)
         elif labels[v] is not None:
             s = quote_label(labels[v], numeric_quoted=True)
         else:
@@ -348,6 +367,8 @@ def format_newick(tree, digits=None, support_digits=0, leaf_text=None, root_comm
         Significant digits of branch lengths (default: exact, ``repr``).
     support_digits : int
         Decimals of support values on internal nodes (0: integer percentages).
+        A value read from a file and not replaced since is written exactly
+        as it was read (:attr:`Tree.support_text`).
     leaf_text : sequence of str, optional
         Ready-made tokens to write for the leaves instead of their quoted
         names (NEXUS TRANSLATE numbers).

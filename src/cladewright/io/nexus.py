@@ -189,7 +189,7 @@ def _rename(tree, translate, taxlabels, text, pos, source):
     from ..tree import Tree
     try:
         return Tree(tree.parent, tree.length, names, support=tree.support, labels=tree.labels,
-                    rooted=tree.rooted)
+                    rooted=tree.rooted, support_text=tree.support_text)
     except ValueError as err:
         raise InputError(f"{_where(text, pos)}: the tree is not valid after TRANSLATE ({err}); "
                          "fix the TRANSLATE table or the tree", source=source) from None
@@ -212,7 +212,8 @@ def format_nexus(trees, digits=None, support_digits=0, tree_names=None):
     digits : int, optional
         Significant digits of branch lengths (default: exact, ``repr``).
     support_digits : int
-        Decimals of support values (0: integer percentages).
+        Decimals of support values (0: integer percentages); a value read
+        from a file and not replaced since is written as it was read.
     tree_names : sequence of str, optional
         Names of the TREE commands (default tree1, tree2, ...).
 
