@@ -16,7 +16,7 @@ import numpy as np
 from .errors import InputError
 from .io.alignment_formats import parse_fasta, parse_nexus_matrix
 
-__all__ = ["Alignment", "read_alignment", "ALPHABETS"]
+__all__ = ["Alignment", "read_alignment", "ALPHABETS", "identical_groups", "distinct_sequences"]
 
 DNA_STATES = "ACGT"
 PROTEIN_STATES = "ACDEFGHIKLMNPQRSTVWY"
@@ -65,14 +65,29 @@ class Alignment:
         The pattern of each site.
     source : str
         Where the alignment was read from, for messages.
+    multiplicity : ndarray of int64, shape (n,)
+        How many sequences each row stands for: 1 each, except in the
+        alignment of distinct sequences (:func:`distinct_sequences`), where a
+        row stands for its group of identical sequences. Base frequencies
+        pooled over the alignment count each row this many times, so they
+        are those of the full alignment.
     """
 
-    def __init__(self, names, states, alphabet, *, source="<alignment>"):
+    def __init__(self, names, states, alphabet, *, source="<alignment>", multiplicity=None):
         self.names = tuple(names)
-        self.states = np.ascontiguousarray(states, dtype=np.uint8)
+        _check_input(self.names, states, alphabet, source)
+        # A copy of the caller's array, read-only: changing it later must not
+        # change an alignment whose patterns were already counted.
+        self.states = np.array(states, dtype=np.uint8, order="C", copy=True)
+        self.states.flags.writeable = False
         self.alphabet = alphabet
         self.source = source
         self.patterns, self.weights, self.site_pattern = _site_patterns(self.states)
+        n = self.states.shape[0]
+        self.multiplicity = (np.ones(n, np.int64) if multiplicity is None
+                             else np.array(multiplicity, dtype=np.int64).reshape(-1))
+        if self.multiplicity.shape != (n,) or (n and self.multiplicity.min() < 1):
+            raise InputError(f"multiplicity must hold {n} whole numbers >= 1, one per sequence")
 
     @property
     def n_states(self):
@@ -114,6 +129,31 @@ class Alignment:
         return f"Alignment({self.n_taxa} sequences x {self.n_sites} sites, {self.alphabet})"
 
 
+def _check_input(names, states, alphabet, source):
+    """Refuse what ``Alignment(...)`` would misread: an alphabet other than
+    dna or protein (the state count would fall back to protein's), or codes
+    outside 0..k+1 (a cast to uint8 would wrap 256 to 0)."""
+    if not isinstance(alphabet, str) or alphabet not in ALPHABETS:
+        raise InputError(f"unknown alphabet {alphabet!r}; choose dna or protein", source=source)
+    arr = np.asarray(states)
+    if arr.ndim != 2 or arr.dtype.kind not in "iu":
+        raise InputError(f"states must be a 2-D integer array, one row per sequence (got {arr.dtype} of shape "
+                         f"{arr.shape}); make it with encode(names, sequences, alphabet, source)", source=source)
+    if arr.shape[0] != len(names):
+        raise InputError(f"{len(names)} names for {arr.shape[0]} rows of states; give one name per sequence",
+                         source=source)
+    top = (len(DNA_STATES) if alphabet == "dna" else len(PROTEIN_STATES)) + 1
+    if arr.size and (arr.max() > top or (arr.dtype.kind == "i" and arr.min() < 0)):
+        raise InputError(f"states holds codes outside 0..{top} for {alphabet}; make it with "
+                         "encode(names, sequences, alphabet, source)", source=source)
+    seen = set()
+    for name in names:
+        if name in seen:
+            raise InputError(f"sequence name {name!r} appears twice; give every sequence a unique name",
+                             source=source)
+        seen.add(name)
+
+
 def _site_patterns(states):
     """Distinct columns, their counts and each site's pattern index (sorted, deterministic)."""
     n, length = states.shape
@@ -124,6 +164,82 @@ def _site_patterns(states):
     _, first, inverse, counts = np.unique(keyed, return_index=True, return_inverse=True, return_counts=True)
     patterns = np.ascontiguousarray(cols[first].T)
     return patterns, counts.astype(np.int64), inverse.reshape(-1).astype(np.int64)
+
+
+def identical_groups(alignment):
+    """The groups of identical sequences of an alignment.
+
+    Two sequences are identical when they hold the same state code at every
+    site: the same bases, the same gaps and the same ambiguity codes (IUPAC
+    codes are all read as missing, so ``N`` and ``R`` at a site count as the
+    same). Any model then gives them the same distance to every other
+    sequence.
+
+    Parameters
+    ----------
+    alignment : Alignment
+
+    Returns
+    -------
+    first : int64 ndarray (g,)
+        The first sequence of each group, in the order of the alignment.
+    group : int64 ndarray (n,)
+        The group of every sequence, numbered in the order of ``first``.
+
+    Examples
+    --------
+    >>> aln = Alignment("abcd", encode("abcd", ["AC-T", "AGGT", "AC-T", "AC-T"], "dna", "x"), "dna")
+    >>> first, group = identical_groups(aln)
+    >>> first.tolist(), group.tolist()
+    ([0, 1], [0, 1, 0, 0])
+    """
+    patterns = np.ascontiguousarray(alignment.patterns)
+    n, width = patterns.shape
+    if n == 0:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64)
+    if width == 0:
+        return np.zeros(1, np.int64), np.zeros(n, np.int64)
+    # Distinct columns describe the rows exactly (fewer bytes than the sites).
+    keyed = patterns.view(np.dtype((np.void, width)))[:, 0]
+    _, first, inverse = np.unique(keyed, return_index=True, return_inverse=True)
+    inverse = inverse.reshape(-1)
+    # Number the groups by their first sequence, so the order is the alignment's.
+    order = np.argsort(first, kind="stable")
+    rank = np.empty_like(order)
+    rank[order] = np.arange(order.size)
+    return first[order].astype(np.int64), rank[inverse].astype(np.int64)
+
+
+def distinct_sequences(alignment):
+    """The alignment with each group of identical sequences entered once.
+
+    Parameters
+    ----------
+    alignment : Alignment
+
+    Returns
+    -------
+    distinct : Alignment
+        One row per group (its first sequence and name, in the order of the
+        alignment), with ``multiplicity`` the size of each group (times the
+        rows' own multiplicity), so that base frequencies are unchanged.
+    group : int64 ndarray (n,)
+        The row of ``distinct`` that stands for each sequence.
+
+    Examples
+    --------
+    >>> aln = Alignment("abc", encode("abc", ["ACGT", "AGGT", "ACGT"], "dna", "x"), "dna")
+    >>> d, group = distinct_sequences(aln)
+    >>> d.names, d.multiplicity.tolist(), group.tolist()
+    (('a', 'b'), [2, 1], [0, 1, 0])
+    """
+    first, group = identical_groups(alignment)
+    if first.size == alignment.n_taxa:
+        return alignment, group
+    mult = np.bincount(group, weights=alignment.multiplicity, minlength=first.size).astype(np.int64)
+    distinct = Alignment([alignment.names[i] for i in first.tolist()], alignment.states[first],
+                         alignment.alphabet, source=alignment.source, multiplicity=mult)
+    return distinct, group
 
 
 def detect_alphabet(sequences):

@@ -106,8 +106,11 @@ def model_options(func):
 
 
 def check_output_not_input(output, *inputs):
-    """Refuse an output path that is one of the inputs: the input would be lost."""
-    if output in (None, "-"):
+    """Refuse an output path that is one of the inputs: the input would be lost.
+    A character device (/dev/null, a terminal) may be both; a FIFO may not."""
+    from .io.files import is_char_device
+
+    if output in (None, "-") or is_char_device(output):
         return
     out = os.path.realpath(output)
     for path in inputs:
@@ -148,6 +151,7 @@ def distance_summary(aln, dm, seconds):
     ]
     if info.get("saturated"):
         lines.append(f"warning   {info['saturated']} saturated pair(s) set to {info['cap']:.6g}")
+    lines.extend(identical_lines(info))
     lines.append(f"time      {seconds:.2f} s")
     return "\n".join(lines)
 
@@ -170,7 +174,8 @@ def tree_output_options(func):
 def output_format(output, fmt):
     if fmt:
         return fmt
-    return "nexus" if str(output).lower().endswith((".nex", ".nexus", ".nxs")) else "newick"
+    name = str(output).lower().removesuffix(".gz")  # tree.nex.gz: gzip-compressed NEXUS
+    return "nexus" if name.endswith((".nex", ".nexus", ".nxs")) else "newick"
 
 
 def write_tree(tree, output, fmt, digits, support_digits):
@@ -215,21 +220,35 @@ def read_input(path, alphabet, precision="double"):
 @click.option("--scheduler", default=None, metavar="ADDRESS", help="Run replicates on this Dask scheduler.")
 @click.option("--report", "report_path", type=click.Path(dir_okay=False), default=None,
               help="Also write a self-contained HTML report of the run.")
+@click.option("--binary", is_flag=True,
+              help="Write a fully resolved tree: polytomies (identical sequences, branches of length zero) "
+                   "resolved by branches of length zero without support, for software that needs binary trees.")
 @tree_output_options
 @click.pass_obj
 @guarded
 def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, alphabet, precision, negative,
          root_spec,
-         replicates, seed, workers, measure, save_replicates, resume, scheduler, report_path, fmt, digits,
+         replicates, seed, workers, measure, save_replicates, resume, scheduler, report_path, binary, fmt, digits,
          support_digits):
     """Build a tree from INPUT: an alignment (FASTA or NEXUS) or a labelled distance matrix (TSV)."""
     from .build import build_tree_with_info
-    from .distances import distance_matrix
+    from .io.files import is_char_device
+    from .pipeline import tree_from_alignment, zero_tolerance
+    from .polytomies import collapse_zero_branches, resolve_polytomies
 
+    for other, flag in ((output, "--output"), (report_path, "--report")):
+        # realpath catches symbolic links (also to a file not made yet), samefile hard links
+        if save_replicates and other not in (None, "-") and (
+                os.path.realpath(other) == os.path.realpath(save_replicates)
+                or (os.path.exists(other) and os.path.exists(save_replicates)
+                    and os.path.samefile(other, save_replicates))):
+            raise InputError(f"--save-replicates and {flag} both name {save_replicates}; choose two different "
+                             "files")
     check_output_not_input(output, input_path, save_replicates)
     check_output_not_input(report_path, input_path, save_replicates)
     check_output_not_input(save_replicates, input_path)
-    if report_path and output != "-" and os.path.realpath(report_path) == os.path.realpath(output):
+    if (report_path and output != "-" and os.path.realpath(report_path) == os.path.realpath(output)
+            and not is_char_device(output)):
         raise InputError(f"--report and --output both name {output}; choose two different files")
     start = time.perf_counter()
     aln, dm = read_input(input_path, alphabet, precision)
@@ -248,17 +267,21 @@ def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, 
                          save_replicates=save_replicates, resume=resume, scheduler=scheduler,
                          progress=not obj.quiet, precision=precision)
         result, info, dm = boot.tree, boot.info, boot.matrix
+    elif dm is None:
+        result, info, dm = tree_from_alignment(aln, model, method, gamma=gamma, gaps=gaps, freqs=freqs,
+                                               saturated=saturated, negative=negative,
+                                               dtype=PRECISIONS[precision], progress=not obj.quiet)
     else:
-        if dm is None:
-            dm = distance_matrix(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated,
-                                 dtype=PRECISIONS[precision], progress=not obj.quiet)
         result, info = build_tree_with_info(dm, method, negative, source=input_path)
         info.update(dm.info)
+        result = collapse_zero_branches(result, zero_tolerance(dm.values.dtype))
     info["negative"] = negative
     if root_spec:
         from .rooting import root_tree
 
         result = root_tree(result, root_spec)
+    if binary:
+        result = resolve_polytomies(result)
     write_tree(result, output, fmt, digits, support_digits)
     seconds = time.perf_counter() - start
     summary = tree_summary(aln, dm, info, boot, seconds)
@@ -278,6 +301,9 @@ def run_warnings(aln, info):
     out = []
     if info.get("saturated"):
         out.append(f"{info['saturated']} saturated pair(s) set to {info['cap']:.6g}")
+    if info.get("replicates_capped"):
+        out.append(f"{info['replicates_capped']} of {info['replicates']} bootstrap replicates drew sites that "
+                   "saturate a pair; those pairs were capped (as --saturated cap does)")
     if info.get("negative_branches"):
         out.append(f"{info['negative_branches']} negative branch length(s) "
                    + ("kept as computed" if info.get("negative") == "keep" else "set to zero"))
@@ -286,6 +312,15 @@ def run_warnings(aln, info):
         if frac < 0.5:
             out.append(f"sequence {name!r} has unambiguous states at only {100 * frac:.0f}% of sites")
     return out
+
+
+def identical_lines(info):
+    """The summary's line on groups of identical sequences, when there are any."""
+    groups = info.get("identical_groups") or 0
+    if not groups:
+        return []
+    return [f"identical {groups} group(s) of identical sequences ({info['identical_sequences']} sequences), "
+            "each computed once and written as a polytomy"]
 
 
 def tree_summary(aln, dm, info, boot, seconds):
@@ -298,8 +333,11 @@ def tree_summary(aln, dm, info, boot, seconds):
     else:
         lines.append(f"taxa      {len(dm.names)} (distance matrix)")
     lines.append(f"method    {info['method']}")
-    if info.get("fit_name"):
+    if info.get("fit_name") and info.get("fit_value") is not None:
         lines.append(f"fit       {info['fit_name']} {info['fit_value']:.4g}")
+    elif info.get("fit_name") or info.get("identical_groups"):
+        lines.append("fit       not defined (fewer than three distinct sequences, or every distance zero)")
+    lines.extend(identical_lines(info))
     if boot is not None:
         resumed = f", {info['resumed']} resumed" if info.get("resumed") else ""
         lines.append(f"support   {boot.support.upper()}, {len(boot.replicates)} replicates{resumed}, seed {boot.seed}")
@@ -336,7 +374,8 @@ def support(obj, tree_path, replicates_path, output, measure, fmt, digits, suppo
 @click.argument("replicates_path", metavar="REPLICATES")
 @click.option("--output", "-o", required=True, metavar="OUT", help="Tree file to write ('-': stdout).")
 @click.option("--threshold", type=click.FloatRange(0.5, 1.0), default=0.5, show_default=True,
-              help="A split enters when its frequency is strictly greater than this.")
+              help="0.5: splits in more than half of the trees (majority rule); above 0.5: splits in at least "
+                   "this share of the trees; 1: splits in every tree (strict consensus).")
 @tree_output_options
 @click.pass_obj
 @guarded
@@ -350,7 +389,9 @@ def consensus(obj, replicates_path, output, threshold, fmt, digits, support_digi
     result = majority_consensus(trees, threshold, source=replicates_path)
     write_tree(result, output, fmt, digits, support_digits)
     n_splits = int(np.count_nonzero(np.isfinite(result.support)))
-    obj.say(f"consensus {len(trees)} trees, {n_splits} splits above {threshold:g}")
+    rule = ("in more than half of them" if threshold == 0.5 else "in all of them (strict)" if threshold == 1
+            else f"in a share of at least {threshold:g} of them")
+    obj.say(f"consensus {len(trees)} trees, {n_splits} splits {rule}")
 
 
 if __name__ == "__main__":  # pragma: no cover

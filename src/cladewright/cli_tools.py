@@ -27,18 +27,27 @@ def _first_tree(path, obj=None):
     return trees[0]
 
 
+def _scale_note(obj, tree, extra=""):
+    """Say on stderr when support was read on a 0-1 scale and is shown as percentages."""
+    if tree.support_percent()[1]:
+        obj.say("note      support values all lie within 0 to 1: read as proportions and shown as "
+                "percentages" + extra)
+
+
 def _support_digits(tree):
-    """Decimals that write the tree's support values back exactly (0 to 2)."""
+    """Decimals that write the tree's support values back exactly (0 to 2);
+    values read from a file are written as read whatever this says."""
     s = np.asarray(tree.support, dtype=np.float64)
     s = s[np.isfinite(s)]
-    for digits in (0, 1):
-        if np.allclose(s, np.round(s, digits), rtol=0, atol=1e-9):
-            return digits
+    with np.errstate(over="ignore", invalid="ignore"):  # rounding 1e308 to a decimal overflows
+        for digits in (0, 1):
+            if np.allclose(s, np.round(s, digits), rtol=0, atol=1e-9):
+                return digits
     return 2
 
 
 def _write_tree(tree, output):
-    fmt = "nexus" if output.lower().endswith((".nex", ".nexus")) else "newick"
+    fmt = "nexus" if output.lower().removesuffix(".gz").endswith((".nex", ".nexus")) else "newick"
     tree.write(output, format=fmt, support_digits=_support_digits(tree))
 
 
@@ -168,7 +177,7 @@ def clusters(obj, tree_path, within, output, rooting):
 
     check_output_not_input(output, tree_path)
     tree = _first_tree(tree_path, obj)
-    labels, sizes = clusters_within(tree, within, root=rooting)
+    labels, sizes = clusters_within(tree, within, root=rooting, source=tree_path)
     names = tree.leaf_names
     order = sorted(range(len(names)), key=lambda i: (int(labels[i]), names[i]))
     lines = ["taxon\tgroup\tgroup_size"]
@@ -184,7 +193,8 @@ def clusters(obj, tree_path, within, output, rooting):
 @click.argument("tree_path", metavar="TREE")
 @click.option("--output", "-o", required=True, metavar="FIGURE", help="Figure to write: .svg, .png or .pdf.")
 @click.option("--highlight-below", type=float, default=None, metavar="SUPPORT",
-              help="Mark support values below this (e.g. 70).")
+              help="Mark support values below this percentage (e.g. 70); support read on a 0-1 scale "
+                   "is compared as percentages.")
 @click.option("--no-ladderize", is_flag=True, help="Keep the stored order of branches.")
 @click.option("--title", default=None, help="Title at the top of the figure.")
 @click.option("--root", "root_spec", default=None, metavar="midpoint|TAXA", help=ROOT_HELP)
@@ -204,9 +214,11 @@ def draw(obj, tree_path, output, highlight_below, no_ladderize, title, root_spec
     groups = None
     if groups_within is not None:
         from .clusters import clusters_within
-        groups, sizes = clusters_within(tree, groups_within)
+        groups, sizes = clusters_within(tree, groups_within, source=tree_path)
     fmt = render_tree(tree, output, highlight_below=highlight_below, ladderize=not no_ladderize, title=title,
                     groups=groups)
+    below = highlight_below is not None
+    _scale_note(obj, tree, f"; --highlight-below {highlight_below:g} is a percentage" if below else "")
     obj.say(f"drawn     {tree.n_leaves} taxa as {fmt.upper()}\nwritten   {output}")
 
 
@@ -219,13 +231,15 @@ def draw(obj, tree_path, output, highlight_below, no_ladderize, title, root_spec
 @click.pass_obj
 @guarded
 def show(obj, tree_path, plain, width, no_ladderize, root_spec):
-    """Print the first tree of TREE as a text drawing, with support values."""
+    """Print the first tree of TREE as a text drawing, with support values
+    (as percentages; support read on a 0-1 scale is multiplied by 100)."""
     from .textdraw import text_tree
 
     tree = _first_tree(tree_path, obj)
     if root_spec:
         from .rooting import root_tree
         tree = root_tree(tree, root_spec)
+    _scale_note(obj, tree)
     click.echo(text_tree(tree, width=width, ascii=plain, ladderize=not no_ladderize), nl=False)
 
 

@@ -68,13 +68,14 @@ def _svg(fig, salt):
     return re.sub(r"<metadata>.*?</metadata>", "", text, flags=re.S)
 
 
-def _heatmap_svg(dm, order_names):
+def _heatmap_svg(dm, order_names, alias=None):
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
     where = {x: i for i, x in enumerate(dm.names)}
+    where.update({x: where[rep] for x, rep in (alias or {}).items() if rep in where and x not in where})
     missing = [x for x in order_names if x not in where]
-    if missing or len(where) != len(order_names):
+    if missing or len(set(where) & set(order_names)) != len(order_names):
         raise ValueError(f"the tree and the distance matrix hold different taxa (e.g. {missing[:3]})")
     idx = np.array([where[x] for x in order_names], dtype=np.int64)
     values = np.asarray(dm.values, dtype=np.float64)[np.ix_(idx, idx)]
@@ -140,6 +141,18 @@ def _rows(pairs):
     return "\n".join(out)
 
 
+def _identical_alias(alignment, dm):
+    """Each sequence entered once for its group of identical sequences, with
+    the name of the sequence whose row of ``dm`` stands for it."""
+    if alignment is None or len(dm.names) == alignment.n_taxa:
+        return {}
+    from .alignment import identical_groups
+
+    first, group = identical_groups(alignment)
+    names = alignment.names
+    return {names[i]: names[first[g]] for i, g in enumerate(group.tolist())}
+
+
 def _derived_warnings(alignment, dm, info):
     found = []
     sat = dm.info.get("saturated") or 0
@@ -172,9 +185,11 @@ def report_html(*, alignment=None, dm, tree, info=None, command_line="", warning
     info = dict(info or {})
     if not isinstance(command_line, str):
         command_line = shlex.join(str(x) for x in command_line)
+    percent, proportions = tree.support_percent()
     if support_values is None:
-        s = np.asarray(tree.support, dtype=np.float64)
-        support_values = s[np.isfinite(s)]
+        support_values = percent[np.isfinite(percent)]
+    elif proportions:
+        support_values = 100.0 * np.asarray(support_values, dtype=np.float64)
     support_values = np.asarray(support_values, dtype=np.float64).reshape(-1)
     support_values = support_values[np.isfinite(support_values)]
     all_warnings = []
@@ -209,7 +224,12 @@ def report_html(*, alignment=None, dm, tree, info=None, command_line="", warning
     parts.append(f"<section id=\"settings\"><h2>Settings</h2>{_rows(settings)}"
                  f"<p>Command line:</p><pre id=\"command-line\">{esc(command_line)}</pre></section>")
 
-    fit = [(info["fit_name"], info["fit_value"])] if info.get("fit_name") else [("fit statistic", "not computed")]
+    if info.get("fit_name") and info.get("fit_value") is not None:
+        fit = [(info["fit_name"], info["fit_value"])]
+    elif info.get("fit_name") or info.get("identical_groups"):
+        fit = [("fit statistic", "not defined (fewer than three distinct sequences, or every distance zero)")]
+    else:
+        fit = [("fit statistic", "not computed")]
     x, y, kids, leaf_rows, _ = tree_layout(tree, True)
     order_names = [tree.leaf_names[i] for i in leaf_rows.tolist()]
     tree_svg = _svg(tree_figure(tree, highlight_below=highlight_below), "cladewright-tree")
@@ -221,6 +241,9 @@ def report_html(*, alignment=None, dm, tree, info=None, command_line="", warning
         if highlight_below is not None:
             low = int(np.count_nonzero(support_values < highlight_below))
             summary += f"; {low} below {highlight_below:g}%"
+        if proportions:
+            summary += (". The tree's support values all lie within 0 to 1, so they were read as proportions "
+                        "and are shown here as percentages")
         parts.append(f"<section id=\"support\"><h2>Support</h2><p>{esc(summary)}</p>"
                      f"<div class=\"fig\">{_histogram_svg(support_values, highlight_below)}</div></section>")
     else:
@@ -228,7 +251,8 @@ def report_html(*, alignment=None, dm, tree, info=None, command_line="", warning
                      "</section>")
 
     parts.append(f"<section id=\"distances\"><h2>Distances</h2><p>Pairwise distances, rows and columns in the "
-                 f"tree's leaf order (top to bottom).</p><div class=\"fig\">{_heatmap_svg(dm, order_names)}</div>"
+                 f"tree's leaf order (top to bottom).</p><div class=\"fig\">"
+                 f"{_heatmap_svg(dm, order_names, _identical_alias(alignment, dm))}</div>"
                  f"</section>")
 
     if all_warnings:
@@ -265,8 +289,10 @@ def write_report(path, *, alignment=None, dm, tree, info=None, command_line="", 
         lengths and sequences with little data are added from ``dm.info``,
         ``info`` and ``alignment``.
     support_values : array_like, optional
-        Support of the internal branches, for the histogram; default the
-        tree's finite support values.
+        Support of the internal branches, for the histogram, on the tree's
+        own scale; default the tree's finite support values. Support read
+        on a 0-1 scale (:meth:`cladewright.tree.Tree.support_percent`) is
+        shown as percentages, and the report says so.
     highlight_below : float, optional
         Support threshold marked in the figures (default 70).
     title : str

@@ -26,7 +26,7 @@ METHODS = ("upgma", "wpgma", "single", "complete", "nj", "bionj")
 NEGATIVE = ("zero", "keep")
 
 
-def build_tree_with_info(dm, method="nj", negative="zero", *, source=None, fit=True):
+def build_tree_with_info(dm, method="nj", negative="zero", *, source=None, fit=True, sizes=None):
     """Build a tree and report on it.
 
     Parameters
@@ -45,6 +45,10 @@ def build_tree_with_info(dm, method="nj", negative="zero", *, source=None, fit=T
     fit : bool
         Compute the fit statistic (an O(n^2) pass over the path lengths);
         without it ``fit_name`` and ``fit_value`` are None.
+    sizes : int array_like (n,), optional
+        How many sequences each taxon of ``dm`` stands for (a group of
+        identical sequences entered once); UPGMA weights its averages by
+        them. The other methods do not use them.
 
     Returns
     -------
@@ -58,14 +62,19 @@ def build_tree_with_info(dm, method="nj", negative="zero", *, source=None, fit=T
     ----------
     See :mod:`cladewright.build.linkage` and :mod:`cladewright.build.nj`.
     """
+    from ..matrix import DistanceMatrix
     from ..tree import Tree
 
-    m = str(method).lower()
+    if not isinstance(dm, DistanceMatrix):
+        # A bare array has no names, and only a DistanceMatrix has been checked.
+        raise InputError(f"dm is {type(dm).__name__}, not a DistanceMatrix; wrap the array as "
+                         "DistanceMatrix(names, values)", source=source)
+    m = str(method).lower() if isinstance(method, str) else None
     if m not in METHODS:
-        raise InputError(f"unknown tree method {method!r}; choose one of {', '.join(METHODS)}",
+        raise InputError(f"unknown tree method method={method!r}; choose one of {', '.join(METHODS)}",
                          source=source)
-    if negative not in NEGATIVE:
-        raise InputError(f"unknown negative-length rule {negative!r}; choose 'zero' or 'keep'",
+    if not isinstance(negative, str) or negative not in NEGATIVE:
+        raise InputError(f"unknown negative-length rule negative={negative!r}; choose 'zero' or 'keep'",
                          source=source)
     names = tuple(dm.names)
     n = len(names)
@@ -80,7 +89,7 @@ def build_tree_with_info(dm, method="nj", negative="zero", *, source=None, fit=T
         if n < 2:
             raise InputError(f"{m} needs at least 2 taxa but the matrix has {n}; add taxa to the input",
                              source=source)
-        parent, length, _ = linkage_arrays(values, m)
+        parent, length, _ = linkage_arrays(values, m, sizes)
         rooted = True
     else:
         if n < 3:
@@ -96,11 +105,15 @@ def build_tree_with_info(dm, method="nj", negative="zero", *, source=None, fit=T
     fit_name = fit_value = None
     if fit:
         fit_name, fit_value = fit_statistic(tree, dm, method=m)
+        if not np.isfinite(fit_value):
+            # e.g. every distance zero, or fewer than three taxa: the
+            # statistic has no value, and a summary must not print nan
+            fit_value = None
     info = {"method": m, "negative_branches": n_neg, "fit_name": fit_name, "fit_value": fit_value}
     return tree, info
 
 
-def build_tree(dm, method="nj", negative="zero", *, source=None):
+def build_tree(dm, method="nj", negative="zero", *, source=None, sizes=None):
     """Build a tree from a distance matrix (see :func:`build_tree_with_info`;
     the fit statistic is skipped here, so replicates pay only for the tree).
 
@@ -122,4 +135,4 @@ def build_tree(dm, method="nj", negative="zero", *, source=None):
     >>> float(build_tree(dm, "upgma").patristic()[0, 2])
     4.0
     """
-    return build_tree_with_info(dm, method, negative, source=source, fit=False)[0]
+    return build_tree_with_info(dm, method, negative, source=source, fit=False, sizes=sizes)[0]

@@ -20,6 +20,7 @@ from typing import NamedTuple
 
 import numpy as np
 
+from ..errors import InputError
 from ..kernels.linkage import nn_chain_linkage
 from ..kernels.matrix import condense_upper
 
@@ -56,7 +57,7 @@ def working_dtype(values):
     return np.float32 if getattr(values, "dtype", None) == np.float32 else np.float64
 
 
-def linkage_arrays(values, method):
+def linkage_arrays(values, method, sizes=None):
     """Agglomerate a distance matrix into a rooted ultrametric tree.
 
     Parameters
@@ -68,6 +69,11 @@ def linkage_arrays(values, method):
         in float32 for a float32 matrix and in float64 otherwise.
     method : str
         A key of :data:`LINKAGE_METHODS`.
+    sizes : int array_like (n,), optional
+        How many sequences each row stands for (default 1 each). UPGMA weights
+        its averages by them, so a group of k identical sequences entered
+        once with size k gives the tree UPGMA gives with all k rows; the
+        other methods do not depend on sizes.
 
     Returns
     -------
@@ -104,8 +110,11 @@ def linkage_arrays(values, method):
     C = np.empty(n * (n - 1) // 2, square.dtype)
     condense_upper(square, C)
     del square
+    sizes = np.ones(n, np.int64) if sizes is None else np.array(sizes, dtype=np.int64).reshape(-1)
+    if sizes.shape != (n,) or (n and sizes.min() < 1):
+        raise InputError(f"sizes must hold {n} whole numbers >= 1, one per taxon of the matrix")
     parent, height = nn_chain_linkage(C, n, float(row.ai), float(row.aj), float(row.beta),
-                                      float(row.gamma), bool(row.size_weighted))
+                                      float(row.gamma), bool(row.size_weighted), sizes)
     del C
     length = np.full(parent.shape[0], np.nan)
     has = parent >= 0

@@ -7,15 +7,18 @@ compiled blocks (:mod:`.counts`), and applies the model's formula
 
 from __future__ import annotations
 
+import math
+import numbers
 from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
 
+from ..alignment import Alignment, distinct_sequences
 from ..errors import InputError, SaturationError
 from ..kernels import counts as kc
 from ..kernels.matrix import mirror_upper, pairs_before
-from ..matrix import DistanceMatrix
+from ..matrix import DistanceMatrix, _as_float_dtype
 from ..progress import Progress
 from . import nucleotide as nuc
 from . import protein as prot
@@ -103,8 +106,9 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
         ``t92``, ``tn93``, ``logdet``, ``paralinear``; protein ``p``,
         ``poisson``, ``kimura``).
     gamma : float, optional
-        Shape alpha > 0 of the gamma distribution of rates across sites, for
-        jc69, k2p, f81, tn93 and poisson.
+        Shape alpha > 0 (finite) of the gamma distribution of rates across
+        sites, for jc69, k2p, f81, tn93 and poisson; None for equal rates
+        (the limit as alpha grows without bound).
     gaps : {"pairwise", "complete"}
         ``pairwise``: each pair uses the sites where both sequences are
         unambiguous; ``complete``: only the sites unambiguous in every sequence.
@@ -117,8 +121,8 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
         a cap, twice the largest defined distance (at least 1), and count them
         in ``info["saturated"]``.
     weights : int array (S,), optional
-        A weight per site pattern (a bootstrap replicate); default: the
-        pattern counts of the alignment.
+        A whole, non-negative weight per site pattern (a bootstrap
+        replicate); default: the pattern counts of the alignment.
     dtype : numpy dtype
         float64, or float32 to halve the memory of very large matrices.
     serial : bool
@@ -132,6 +136,13 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
     -------
     DistanceMatrix
 
+    Raises
+    ------
+    InputError
+        For a parameter outside the values above (naming it), or data the
+        model cannot use; :class:`SaturationError` for undefined distances
+        with ``saturated="error"``.
+
     References
     ----------
     See :mod:`cladewright.distances.nucleotide` and :mod:`.protein` for each formula.
@@ -143,29 +154,46 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
     >>> round(float(distance_matrix(aln, "p").values[0, 1]), 3)
     0.1
     """
+    if not isinstance(alignment, Alignment):
+        raise InputError(f"alignment is {type(alignment).__name__}, not an Alignment; read one with "
+                         "read_alignment(path)")
     src = alignment.source
     spec = resolve_model(model, alignment.alphabet, src)
     if gamma is not None:
+        gamma = _gamma_shape(gamma, src)
         if not spec.gamma:
             with_gamma = ", ".join(n for n, m in MODELS.items() if m.gamma)
             raise InputError(f"model {spec.name} has no gamma form; drop --gamma or choose one of {with_gamma}",
                              source=src)
-        if not (np.isfinite(gamma) and gamma > 0):
-            raise InputError(f"gamma shape {gamma!r} must be a positive number (e.g. 0.5)", source=src)
-    if gaps not in GAP_MODES:
-        raise InputError(f"unknown gap mode {gaps!r}; choose pairwise or complete", source=src)
-    if freqs not in FREQ_MODES:
-        raise InputError(f"unknown base-frequency source {freqs!r}; choose alignment or pair", source=src)
-    if saturated not in SATURATED_MODES:
-        raise InputError(f"unknown saturation rule {saturated!r}; choose error or cap", source=src)
+    if not isinstance(gaps, str) or gaps not in GAP_MODES:
+        raise InputError(f"unknown gap mode gaps={gaps!r}; choose gaps=\"pairwise\" or \"complete\"", source=src)
+    if not isinstance(freqs, str) or freqs not in FREQ_MODES:
+        raise InputError(f"unknown base-frequency source freqs={freqs!r}; choose freqs=\"alignment\" or \"pair\"",
+                         source=src)
+    if not isinstance(saturated, str) or saturated not in SATURATED_MODES:
+        raise InputError(f"unknown saturation rule saturated={saturated!r}; choose saturated=\"error\" or "
+                         "\"cap\"", source=src)
+    dtype = _as_float_dtype(dtype, src)
     n = alignment.n_taxa
     if n < 2:
         raise InputError(f"the alignment has {n} sequence(s); distances need at least two: add sequences",
                          source=src)
 
+    if weights is None and spec.name in ZERO_WHEN_IDENTICAL:
+        # Identical sequences are counted once and their rows copied: a
+        # group of identical sequences costs what one sequence costs.
+        distinct, group = distinct_sequences(alignment)
+        if distinct is not alignment and distinct.n_taxa >= 2:
+            try:
+                return _expanded(distance_matrix(distinct, model, gamma, gaps, freqs, saturated=saturated,
+                                                 dtype=dtype, serial=serial, progress=progress),
+                                 alignment.names, group)
+            except InputError:
+                pass  # computed again on every row below, so that the message names every pair
+
     k = alignment.n_states
     patterns = alignment.patterns
-    weights = alignment.weights if weights is None else np.asarray(weights, dtype=np.int64)
+    weights = alignment.weights if weights is None else _pattern_weights(weights, alignment.n_patterns, src)
     use = None
     if gaps == "complete":
         use = np.all(patterns < k, axis=0)
@@ -179,7 +207,7 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
         if freqs == "pair":
             kind = kc.COMPOSITION
         else:
-            pi = state_frequencies(patterns, weights, k, use)
+            pi = state_frequencies(patterns, weights, k, use, alignment.multiplicity)
             _check_frequencies(spec, pi, src)
     packed = pack(patterns, weights, k, use)
     values = np.zeros((n, n), dtype=dtype)
@@ -231,7 +259,45 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
         values[~np.isfinite(values)] = cap
         info.update(saturated=n_undefined, cap=cap, saturated_pairs=[(names[i], names[j]) for i, j in undefined])
     mirror_upper(values)
-    return DistanceMatrix(names, values, validate=False, dtype=dtype, info=info)
+    return DistanceMatrix._adopt(names, values, info=info)
+
+
+def _gamma_shape(gamma, source):
+    """The gamma shape as a float, or an error naming ``gamma``."""
+    ok = isinstance(gamma, numbers.Real) and not isinstance(gamma, bool)
+    if not (ok and math.isfinite(gamma) and gamma > 0):
+        raise InputError(f"gamma shape {gamma!r} must be a positive number (a finite alpha > 0, e.g. 0.5; "
+                         "gamma=None for equal rates)", source=source)
+    return float(gamma)
+
+
+def _pattern_weights(weights, n_patterns, source):
+    """Whole, non-negative weights, one per site pattern (int64): a float
+    weight would otherwise be truncated without a word."""
+    try:
+        w = np.asarray(weights)
+    except (TypeError, ValueError):
+        w = np.asarray(None)
+    if w.shape != (n_patterns,) or w.dtype.kind not in "iuf" or (w.dtype.kind == "f" and not
+                                                                  np.all(np.isfinite(w) & (w == np.round(w)))):
+        raise InputError(f"weights must be {n_patterns} whole numbers, one per site pattern (got {w.dtype} of "
+                         f"shape {w.shape}); give a count for each column of alignment.patterns", source=source)
+    if np.any(w < 0):
+        raise InputError("weights must be >= 0 (a site pattern's count in the replicate)", source=source)
+    return w.astype(np.int64)
+
+
+def _expanded(dm, names, group):
+    """The matrix over every sequence from the matrix of the distinct ones."""
+    values = dm.values[np.ix_(group, group)]
+    info = dict(dm.info)
+    sizes = np.bincount(group)
+    info["identical_groups"] = int(np.count_nonzero(sizes > 1))
+    info["identical_sequences"] = int(sizes[sizes > 1].sum())
+    if info.get("saturated"):
+        # every copy of a saturated pair is saturated; only they hold the cap
+        info["saturated"] = int(np.count_nonzero(np.triu(values == info["cap"], 1)))
+    return DistanceMatrix._adopt(names, values, info=info)  # values is a new array: no second copy
 
 
 def _count_dict(block, kind):

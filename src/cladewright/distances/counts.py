@@ -88,16 +88,21 @@ def iter_count_blocks(packed, kind, serial=False):
         yield r0, r1, buf[:, :m]
 
 
-def state_frequencies(patterns, weights, n_states, use=None):
+def state_frequencies(patterns, weights, n_states, use=None, multiplicity=None):
     """Frequencies of the unambiguous states over the patterns in use,
-    weighted, pooled over all sequences."""
+    weighted, pooled over all sequences; row ``i`` counts
+    ``multiplicity[i]`` times (a row standing for a group of identical
+    sequences)."""
     weights = np.asarray(weights, dtype=np.int64)
     if use is not None:
         weights = np.where(use, weights, 0)
     counts = np.zeros(n_states + 2, dtype=np.int64)
     # One bincount per state code keeps this O(n S) without a loop over sites.
     flat_states = patterns.reshape(-1)
-    flat_weights = np.broadcast_to(weights, patterns.shape).reshape(-1)
+    if multiplicity is None:
+        flat_weights = np.broadcast_to(weights, patterns.shape).reshape(-1)
+    else:
+        flat_weights = np.outer(np.asarray(multiplicity, dtype=np.int64), weights).reshape(-1)
     counts += np.bincount(flat_states, weights=flat_weights, minlength=n_states + 2)[: n_states + 2].astype(np.int64)
     total = counts[:n_states].sum()
     if total == 0:

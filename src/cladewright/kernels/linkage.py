@@ -115,7 +115,7 @@ def _compact(C, m, rs, act, na, size, node, chain, clen):
 
 
 @nb.njit(cache=True, nogil=True)  # bootstrap replicates build their trees side by side on threads
-def nn_chain_linkage(C, n, ai, aj, b, g, size_weighted):
+def nn_chain_linkage(C, n, ai, aj, b, g, size_weighted, sizes):
     """Agglomerate with the nearest-neighbour chain; C is overwritten.
 
     Parameters
@@ -133,6 +133,10 @@ def nn_chain_linkage(C, n, ai, aj, b, g, size_weighted):
     size_weighted : bool
         Use a_i = n_i / (n_i + n_j), a_j = n_j / (n_i + n_j) instead of
         ``ai``, ``aj`` (UPGMA).
+    sizes : int64 ndarray (n,)
+        Starting cluster sizes: how many sequences each row stands for (1
+        each, or the size of a group of identical sequences entered once).
+        Read only when ``size_weighted``; not changed.
 
     Returns
     -------
@@ -166,7 +170,7 @@ def nn_chain_linkage(C, n, ai, aj, b, g, size_weighted):
     act = np.zeros(n + _AHEAD, np.int64)
     act[:n] = np.arange(n)
     na = n
-    size = np.ones(n, np.int64)
+    size = sizes.copy()
     node = np.arange(n)              # node id held by each row
     chain = np.empty(n, np.int64)
     clen = 0

@@ -276,8 +276,12 @@ def apply_support(tree, values):
     Returns
     -------
     Tree
-        ``tree.with_support(...)``; nodes without a split get nan.
+        ``tree.with_support(...)``; nodes without a split get nan, and so
+        do branches of length zero: a branch of length zero is no branch
+        (see :mod:`cladewright.polytomies`), so no support is shown on it.
     """
+    from ..polytomies import ZERO_TOLERANCE
+
     values = np.asarray(values, dtype=np.float64)
     if values.shape == (tree.n_nodes,):
         return tree.with_support(values.copy())
@@ -286,6 +290,11 @@ def apply_support(tree, values):
         raise ValueError(f"{values.size} support values for {nodes.size} internal edges")
     support = np.full(tree.n_nodes, np.nan)
     support[nodes] = values
+    lengths = _split_lengths(tree, nodes)
+    all_lengths = np.asarray(tree.length, dtype=np.float64)
+    finite = np.isfinite(all_lengths)
+    scale = float(np.abs(all_lengths[finite]).max()) if finite.any() else 0.0
+    support[nodes[np.isfinite(lengths) & (np.abs(lengths) <= ZERO_TOLERANCE * scale)]] = np.nan
     return tree.with_support(support)
 
 
@@ -297,9 +306,12 @@ def majority_consensus(trees, threshold=0.5, *, source=None):
     trees : iterable of Tree
         Trees over the same taxa; the first fixes the leaf order.
     threshold : float
-        A split enters when its frequency is strictly greater than this;
-        between 0.5 and 1 (0.5 gives the majority rule; any value >= 0.5
-        keeps the chosen splits compatible).
+        Between 0.5 and 1. At 0.5 (the default) a split enters when it is in
+        more than half of the trees: the majority rule. Above 0.5 a split
+        enters when it is in at least this share of the trees, so 1 keeps
+        the splits in every tree: the strict consensus. Any such rule keeps
+        the chosen splits compatible, since two splits each in more than
+        half of the trees share a tree.
     source : str, optional
         Name of the tree file, for error messages.
 
@@ -313,7 +325,8 @@ def majority_consensus(trees, threshold=0.5, *, source=None):
 
     References
     ----------
-    Margush & McMorris (1981) Bull. Math. Biol. 43:239–244.
+    Margush & McMorris (1981) Bull. Math. Biol. 43:239–244 (majority rule;
+    strict consensus as its limit, splits in all trees).
     """
     from ..tree import Tree
 
@@ -324,8 +337,10 @@ def majority_consensus(trees, threshold=0.5, *, source=None):
     n = len(names)
     keys, count, lsum, lcnt, leaf_sum, leaf_cnt = _tally(names, trees, source, "tree")
 
+    # count / len is correctly rounded, so a share met exactly (7 of 10 trees
+    # at 0.7, every tree at 1) compares equal to the threshold.
     freq = count / len(trees)
-    kept = np.flatnonzero(freq > threshold)
+    kept = np.flatnonzero(freq > 0.5 if threshold == 0.5 else freq >= threshold)
     bits = keys[kept]
     size = np.bitwise_count(bits).sum(axis=1)
     # Largest first: each split's parent is then the smallest split already

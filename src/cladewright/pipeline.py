@@ -1,0 +1,170 @@
+"""From an alignment to a tree, with identical sequences entered once.
+
+Identical sequences (same state at every site) have the same distance to
+every other sequence, and zero between them, under every model but LogDet.
+They are found first, the distances and the tree are computed for the
+distinct sequences only (UPGMA weighting each by the size of its group, so
+its averages are those of the full data), and each group comes back as a
+polytomy of zero-length leaves. Then every branch of length zero is
+contracted: a branch of length zero separates nothing the data tell apart.
+
+References
+----------
+Sokal & Michener (1958) Univ. Kansas Sci. Bull. 38:1409–1438 (UPGMA's
+size-weighted averages).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .alignment import distinct_sequences
+from .build import build_tree_with_info
+from .distances import ZERO_WHEN_IDENTICAL, distance_matrix, resolve_model
+from .polytomies import ZERO_TOLERANCE, attach_identical, collapse_zero_branches
+
+__all__ = ["tree_from_alignment", "distinct_tree", "split_identical", "finish_tree", "zero_tolerance",
+           "identical_info"]
+
+
+def zero_tolerance(dtype):
+    """How close to zero, relative to the longest branch, a length counts
+    as zero: rounding in float32 matrices reaches about 1e-7 of a distance."""
+    return 1e-6 if np.dtype(dtype) == np.float32 else ZERO_TOLERANCE
+
+
+def split_identical(alignment, model):
+    """The alignment to compute on, and the row of it that stands for each sequence.
+
+    Parameters
+    ----------
+    alignment : Alignment
+    model : str
+        Identical sequences are merged for every model that puts them at
+        distance zero; LogDet does not, so there they stay apart.
+
+    Returns
+    -------
+    distinct : Alignment
+    group : int64 ndarray (n,)
+    """
+    spec = resolve_model(model, alignment.alphabet, alignment.source)
+    if spec.name not in ZERO_WHEN_IDENTICAL:
+        return alignment, np.arange(alignment.n_taxa, dtype=np.int64)
+    return distinct_sequences(alignment)
+
+
+def finish_tree(tree, names, group, tolerance=ZERO_TOLERANCE):
+    """Groups of identical sequences put back as polytomies, and branches
+    of length zero contracted (see :mod:`cladewright.polytomies`)."""
+    return collapse_zero_branches(attach_identical(tree, names, group), tolerance)
+
+
+def identical_info(group):
+    """How many groups of two or more identical sequences, and how many sequences they hold."""
+    sizes = np.bincount(group) if group.size else np.zeros(0, np.int64)
+    return {"identical_groups": int(np.count_nonzero(sizes > 1)),
+            "identical_sequences": int(sizes[sizes > 1].sum())}
+
+
+def tree_from_alignment(alignment, model="k2p", method="nj", *, gamma=None, gaps="pairwise", freqs="alignment",
+                        saturated="error", negative="zero", dtype=np.float64, progress=False):
+    """Distances and a tree for an alignment, identical sequences entered once.
+
+    Parameters
+    ----------
+    alignment : Alignment
+    model, gamma, gaps, freqs, saturated : see :func:`cladewright.distance_matrix`
+    method, negative : see :func:`cladewright.build_tree`
+    dtype : numpy dtype
+        float64, or float32 for half the memory.
+    progress : bool
+        A progress line for the distances on a terminal.
+
+    Returns
+    -------
+    tree : Tree
+        Over every sequence; groups of identical sequences as polytomies of
+        zero-length leaves, branches of length zero contracted.
+    info : dict
+        As :func:`cladewright.build_tree_with_info`, the distance matrix's
+        facts, and ``identical_groups``, ``identical_sequences``.
+    dm : DistanceMatrix
+        The distances of the distinct sequences (one row per group, named
+        after its first sequence).
+
+    Examples
+    --------
+    >>> from cladewright.alignment import Alignment, encode
+    >>> seqs = ["ACGTACGTAA", "ACGTACGTAA", "ACGTTCGTAC", "TCGTACCTAC"]
+    >>> aln = Alignment("abcd", encode("abcd", seqs, "dna", "x"), "dna")
+    >>> tree, info, dm = tree_from_alignment(aln, "p", "upgma")
+    >>> info["identical_groups"], dm.names
+    (1, ('a', 'c', 'd'))
+    >>> tree.to_newick(digits=3)
+    '(((a:0,b:0):0.1,c:0.1):0.05,d:0.15);\\n'
+    """
+    distinct, group = split_identical(alignment, model)
+    tree, info, dm = distinct_tree(distinct, model, method, gamma=gamma, gaps=gaps, freqs=freqs,
+                                   saturated=saturated, negative=negative, dtype=dtype, progress=progress,
+                                   n_sequences=alignment.n_taxa)
+    info.update(identical_info(group))
+    return finish_tree(tree, alignment.names, group, zero_tolerance(dtype)), info, dm
+
+
+def distinct_tree(distinct, model, method, *, gamma=None, gaps="pairwise", freqs="alignment", saturated="error",
+                  negative="zero", dtype=np.float64, weights=None, fit=True, serial=False, progress=False,
+                  n_sequences=None):
+    """Distances and the tree of the distinct sequences (see :func:`split_identical`).
+
+    Parameters
+    ----------
+    distinct : Alignment
+        Rows with their ``multiplicity``.
+    weights : int array, optional
+        Site-pattern weights of a bootstrap replicate.
+    fit, serial, progress :
+        Compute the fit statistic; count on this thread only; show progress.
+    n_sequences : int, optional
+        How many sequences the rows stand for; with three or more of them
+        but fewer than three distinct, the tree is a star or one branch
+        whatever the method.
+
+    Returns
+    -------
+    tree, info, dm
+    """
+    n_sequences = distinct.n_taxa if n_sequences is None else n_sequences
+    if distinct.n_taxa < 3 <= n_sequences:
+        return _few_distinct(distinct, model, gamma, gaps, freqs, saturated, method, dtype, weights)
+    dm = distance_matrix(distinct, model, gamma, gaps, freqs, saturated=saturated, weights=weights, dtype=dtype,
+                         serial=serial, progress=progress)
+    tree, info = build_tree_with_info(dm, method, negative, sizes=distinct.multiplicity, source=distinct.source,
+                                      fit=fit)
+    info.update(dm.info)
+    return tree, info, dm
+
+
+def _few_distinct(distinct, model, gamma, gaps, freqs, saturated, method, dtype, weights):
+    """The tree of one or two distinct sequences (their groups added later)."""
+    from .build import METHODS
+    from .matrix import DistanceMatrix
+    from .tree import Tree
+
+    m = str(method).lower()
+    if m not in METHODS:
+        build_tree_with_info(DistanceMatrix("abc", np.zeros((3, 3))), method)  # raises the usual error
+    names = distinct.names
+    if distinct.n_taxa == 1:
+        dm = DistanceMatrix(names, np.zeros((1, 1), dtype=dtype), validate=False, dtype=dtype,
+                            info={"model": resolve_model(model, distinct.alphabet).name, "gamma": gamma,
+                                  "gaps": gaps, "freqs": None, "saturated": 0, "cap": None})
+        tree = Tree([-1], [np.nan], names, rooted=m not in ("nj", "bionj"))
+    else:
+        dm = distance_matrix(distinct, model, gamma, gaps, freqs, saturated=saturated, weights=weights,
+                             dtype=dtype)
+        half = float(dm.values[0, 1]) / 2.0
+        tree = Tree([2, 2, -1], [half, half, np.nan], names, rooted=m not in ("nj", "bionj"))
+    info = {"method": m, "negative_branches": 0, "fit_name": None, "fit_value": None}
+    info.update(dm.info)
+    return tree, info, dm
