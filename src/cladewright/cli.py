@@ -233,7 +233,7 @@ def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, 
     """Build a tree from INPUT: an alignment (FASTA or NEXUS) or a labelled distance matrix (TSV)."""
     from .build import build_tree_with_info
     from .io.files import is_char_device
-    from .pipeline import tree_from_alignment, zero_tolerance
+    from .pipeline import split_identical, tree_from_alignment, zero_tolerance
     from .polytomies import collapse_zero_branches, resolve_polytomies
 
     for other, flag in ((output, "--output"), (report_path, "--report")):
@@ -252,7 +252,8 @@ def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, 
         raise InputError(f"--report and --output both name {output}; choose two different files")
     start = time.perf_counter()
     aln, dm = read_input(input_path, alphabet, precision)
-    n_taxa = aln.n_taxa if aln is not None else len(dm.names)
+    # identical sequences enter the distances and the tree once: the matrix is that of the distinct ones
+    n_taxa = split_identical(aln, model)[0].n_taxa if aln is not None else len(dm.names)
     check_fits(n_taxa, method=method, precision=precision,
                workers=(workers or os.cpu_count() or 1) if replicates and scheduler is None else 0)
     boot = None
