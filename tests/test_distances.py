@@ -6,12 +6,12 @@ import math
 
 import numpy as np
 import pytest
-from hypothesis import given, settings, strategies as st
+from hypothesis import assume, given, settings, strategies as st
 from skbio import DNA, Protein, TabularMSA
 from skbio.alignment import align_dists
 
 from cladewright import errors
-from cladewright.distances import distance_matrix
+from cladewright.distances import MAX_LISTED, distance_matrix
 from cladewright.distances.counts import state_frequencies
 
 from conftest import make_alignment, simulate_dna
@@ -194,21 +194,68 @@ def alignments(draw):
     return make_alignment(names, seqs)
 
 
+def _plain_pair_proportions(states):
+    """Per pair, over the sites where both states are A, C, G or T (codes 0..3; gaps and ambiguity codes
+    left out pairwise): the number of such sites, the proportion of differences p, of transitions P
+    (A<->G, C<->T) and of transversions Q. A plain loop over pairs, written for this test."""
+    n = states.shape[0]
+    sites, p, P, Q = (np.zeros((n, n)) for _ in range(4))
+    for i in range(n):
+        for j in range(n):
+            a, b = states[i], states[j]
+            both = (a < 4) & (b < 4)
+            m = both.sum()
+            sites[i, j] = m
+            if m:
+                diff = both & (a != b)
+                ts = diff & (np.abs(a.astype(int) - b.astype(int)) == 2)  # A=0<->G=2, C=1<->T=3
+                p[i, j], P[i, j], Q[i, j] = diff.sum() / m, ts.sum() / m, (diff & ~ts).sum() / m
+    return sites, p, P, Q
+
+
 @settings(max_examples=60, deadline=None)
 @given(alignments(), st.floats(0.2, 5.0))
 def test_properties(aln, alpha):
-    # from the formulas (common practice): symmetric, zero diagonal, non-negative; the JC69 and K2P
-    # corrections never shrink p; a gamma form is never below its plain form (Jin & Nei 1990).
-    try:
-        p = distance_matrix(aln, "p").values
-    except errors.InputError:
-        return  # a pair without shared sites: checked elsewhere
-    for model in ("jc69", "k2p"):
-        try:
-            d = distance_matrix(aln, model).values
-            g = distance_matrix(aln, model, gamma=alpha).values
-        except errors.SaturationError:
+    # Every example checks values: p (differences over compared sites, common practice), JC69
+    # d = -3/4 ln(1 - 4p/3) (Jukes & Cantor 1969), K2P d = -1/2 ln(1 - 2P - Q) - 1/4 ln(1 - 2Q)
+    # (Kimura 1980) and their gamma forms 3/4 a [(1 - 4p/3)^(-1/a) - 1] and
+    # a/2 [(1 - 2P - Q)^(-1/a) + 1/2 (1 - 2Q)^(-1/a) - 3/2] (Jin & Nei 1990), all computed plainly here;
+    # a pair whose logarithm's argument is <= 0 is undefined and must be named in the error; and, from the
+    # formulas (common practice), symmetric, zero diagonal, non-negative, JC69 and K2P never below p, a
+    # gamma form never below its plain form.
+    sites, p_plain, P, Q = _plain_pair_proportions(aln.states)
+    off = ~np.eye(aln.n_taxa, dtype=bool)
+    assume(np.all(sites[off] > 0))  # a pair without shared sites is an error, checked elsewhere
+    args = {"jc69": [1 - 4 * p_plain / 3], "k2p": [1 - 2 * P - Q, 1 - 2 * Q]}
+    # a logarithm's argument within rounding of 0 may fall either side of it: not a test of the formula
+    assume(all(np.all(np.abs(x[off]) > 1e-9) for xs in args.values() for x in xs))
+    p = distance_matrix(aln, "p").values
+    np.testing.assert_allclose(p, p_plain, rtol=0, atol=1e-12)
+    for model, xs in args.items():
+        undefined = off & np.logical_or.reduce([x <= 0 for x in xs])
+        if undefined.any():
+            for gamma in (None, alpha):
+                with pytest.raises(errors.SaturationError) as caught:
+                    distance_matrix(aln, model, gamma=gamma)
+                named = {tuple(sorted(pair)) for pair in caught.value.pairs}
+                expected = {(i, j) for i, j in zip(*np.nonzero(undefined)) if i < j}
+                # the message lists the first MAX_LISTED pairs and counts them all
+                assert named <= expected and len(named) == min(len(expected), MAX_LISTED)
+                assert f"for {len(expected)} pair(s)" in str(caught.value)
             continue
+        d = distance_matrix(aln, model).values
+        g = distance_matrix(aln, model, gamma=alpha).values
+        with np.errstate(divide="ignore"):
+            if model == "jc69":
+                (x,) = xs
+                want_d = -0.75 * np.log(x)
+                want_g = 0.75 * alpha * (x ** (-1 / alpha) - 1)
+            else:
+                x1, x2 = xs
+                want_d = -0.5 * np.log(x1) - 0.25 * np.log(x2)
+                want_g = alpha / 2 * (x1 ** (-1 / alpha) + 0.5 * x2 ** (-1 / alpha) - 1.5)
+        np.testing.assert_allclose(d[off], want_d[off], rtol=1e-9, atol=1e-12)
+        np.testing.assert_allclose(g[off], want_g[off], rtol=1e-9, atol=1e-12)
         for m in (d, g):
             assert np.array_equal(m, m.T)
             assert np.all(np.diag(m) == 0)
