@@ -34,13 +34,14 @@ import time
 import numpy as np
 from hypothesis import HealthCheck, given, seed as hypothesis_seed, settings, strategies as st
 
-from cladewright.alignment import ALPHABETS, read_alignment
+from cladewright.alignment import ALPHABETS
 from cladewright.errors import InputError
 from cladewright.io import read_trees
-from cladewright.io.alignment_formats import parse_fasta, parse_nexus_matrix
-from cladewright.io.newick import format_newick, parse_newick
-from cladewright.io.nexus import format_nexus, parse_nexus_trees
-from cladewright.matrix import read_distance_matrix
+from cladewright.io.alignment_formats import parse_fasta
+from cladewright.io.newick_writer import format_newick
+from cladewright.io.nexus import format_nexus
+from cladewright.io.nexus_alignment import parse_nexus_matrix
+from cladewright.io.readers import parse_newick, parse_nexus_trees, read_alignment, read_distance_matrix
 
 __all__ = ["one_input", "fuzz_bytes", "make_test", "run", "SEEDS"]
 

@@ -5,18 +5,19 @@ alphabet (A C G T for DNA; the 20 amino acids in alphabetical order of their
 one-letter codes for protein), ``k`` for a gap and ``k + 1`` for anything
 missing or ambiguous. IUPAC ambiguity codes (NC-IUB 1985) are accepted and
 treated as missing for distances (common practice).
+
+:func:`cladewright.read_alignment` reads an alignment file into an
+:class:`Alignment`.
 """
 
 from __future__ import annotations
 
-import os
-
 import numpy as np
 
+from .choices import ALPHABETS
 from .errors import InputError
-from .io.alignment_formats import parse_fasta, parse_nexus_matrix
 
-__all__ = ["Alignment", "read_alignment", "ALPHABETS", "identical_groups", "distinct_sequences"]
+__all__ = ["Alignment", "ALPHABETS", "encode", "detect_alphabet", "identical_groups", "distinct_sequences"]
 
 DNA_STATES = "ACGT"
 PROTEIN_STATES = "ACDEFGHIKLMNPQRSTVWY"
@@ -26,7 +27,6 @@ DNA_AMBIGUOUS = "RYSWKMBDHVN?X"
 # as missing: most matrices lack them), * (stop), ? (missing).
 PROTEIN_AMBIGUOUS = "BZJXUO*?"
 GAPS = "-."
-ALPHABETS = ("dna", "protein")
 # A letter that is no nucleotide code marks protein when the alphabet is detected.
 _PROTEIN_ONLY = set("EFIJLOPQZ*")
 
@@ -274,67 +274,10 @@ def encode(names, sequences, alphabet, source, positions=None):
         row[raw > 255] = 255
         if (row == 255).any():
             col = int(np.flatnonzero(row == 255)[0])
-            hint = ("pass --alphabet protein if these are amino acids" if alphabet == "dna"
+            hint = ('pass alphabet="protein" if these are amino acids' if alphabet == "dna"
                     else "remove or replace it (X marks an unknown residue)")
             raise InputError(f"sequence {names[i]!r}, site {col + 1}: {seq[col]!r} is not "
                              f"{'a nucleotide (IUPAC, NC-IUB 1985)' if alphabet == 'dna' else 'an amino-acid'} code; "
                              f"{hint}", source=source)
         states[i] = row
     return states
-
-
-def read_alignment(path, alphabet=None, *, text=None):
-    """Read an aligned FASTA or NEXUS file (plain or gzip-compressed).
-
-    The format is detected from the content: ``>`` starts FASTA, ``#NEXUS``
-    starts NEXUS (a DATA or CHARACTERS block with a MATRIX; Maddison,
-    Swofford & Maddison 1997).
-
-    Parameters
-    ----------
-    path : str or os.PathLike
-        The file; ``-`` reads standard input.
-    alphabet : {"dna", "protein"}, optional
-        Detected when not given: from a NEXUS FORMAT DATATYPE, else protein
-        if any letter is not a nucleotide code.
-    text : str, optional
-        The content, when the caller already has it (``path`` then only names it).
-
-    Returns
-    -------
-    Alignment
-
-    Examples
-    --------
-    >>> import tempfile, os
-    >>> fd, p = tempfile.mkstemp(suffix=".fasta"); _ = os.write(fd, b">a\\nACGT\\n>b\\nACGA\\n"); os.close(fd)
-    >>> read_alignment(p).states.tolist()
-    [[0, 1, 2, 3], [0, 1, 2, 0]]
-    """
-    source = "<stdin>" if os.fspath(path) == "-" else os.fspath(path)
-    if text is None:
-        from .io.files import read_text
-
-        text = read_text(path)
-    stripped = text.lstrip()
-    if not stripped:
-        raise InputError("the file is empty; give an aligned FASTA or NEXUS file", source=source)
-    if stripped.startswith(">"):
-        names, seqs = parse_fasta(text, source)
-    elif stripped[:6].upper() == "#NEXUS":
-        info = {}
-        names, seqs = parse_nexus_matrix(text, source, info)
-        # FORMAT DATATYPE settles the alphabet that letters alone may not
-        # (a short protein can look like DNA).
-        if alphabet is None:
-            alphabet = info.get("alphabet")
-    else:
-        first = stripped.splitlines()[0][:40]
-        raise InputError(f"does not look like an alignment (it starts {first!r}); give aligned FASTA "
-                         "(records starting with '>') or NEXUS (starting with '#NEXUS')", source=source)
-    if alphabet is None:
-        alphabet = detect_alphabet(seqs)
-    elif alphabet not in ALPHABETS:
-        raise InputError(f"unknown alphabet {alphabet!r}; choose dna or protein", source=source)
-    states = encode(names, seqs, alphabet, source)
-    return Alignment(names, states, alphabet, source=source)

@@ -1,21 +1,19 @@
 """DistanceMatrix: taxon names and an n x n matrix of pairwise distances.
 
-The file form is a labelled TSV: the first row is an empty cell followed by
-the names, then one row per name, its name first. Values are written with
-``repr`` precision so that a matrix round-trips exactly.
+The file form is a labelled TSV (:mod:`cladewright.io.matrix_tsv`); values
+are written with ``repr`` precision so that a matrix round-trips exactly.
+:func:`cladewright.read_distance_matrix` reads one.
 """
 
 from __future__ import annotations
 
-import io
-import os
-import re
-
 import numpy as np
 
 from .errors import InputError
+from .io.matrix_tsv import format_distance_tsv
+from .io.output import write_text_atomic
 
-__all__ = ["DistanceMatrix", "read_distance_matrix"]
+__all__ = ["DistanceMatrix", "check_distance_matrix", "as_float_dtype"]
 
 
 class DistanceMatrix:
@@ -60,7 +58,7 @@ class DistanceMatrix:
 
     def __init__(self, names, values, *, validate=True, dtype=np.float64, source=None, info=None):
         names = _as_names(names, source)
-        dtype = _as_float_dtype(dtype, source)
+        dtype = as_float_dtype(dtype, source)
         values = _as_values(values, dtype, source)
         _check_shape(names, values, source)
         if validate:
@@ -72,7 +70,7 @@ class DistanceMatrix:
         """Wrap an array the caller made and hands over (no copy, no check).
 
         For cladewright's own builders only (the distance engine, the TSV
-        reader): an n = 50,000 matrix is 10-20 GB, too much to copy. The array
+        reader in :mod:`cladewright.io.readers`): an n = 50,000 matrix is 10-20 GB, too much to copy. The array
         is marked read-only; the caller must keep no writable reference.
         """
         self = object.__new__(cls)
@@ -125,38 +123,16 @@ class DistanceMatrix:
             When a name cannot stand in a TSV cell (a tab or line break, or
             spaces at its ends, which a reader strips).
         """
-        for name in self.names:
-            if _BAD_TSV_NAME.search(name) or name != name.strip() or not name:
-                raise InputError(f"taxon name {name!r} cannot be written to a TSV matrix (it is empty, holds a "
-                                 "tab, NUL or line break, or starts or ends with a space); rename the taxon")
-        buf = io.StringIO()
-        buf.write("\t" + "\t".join(self.names) + "\n")
-        for name, row in zip(self.names, self.values):
-            buf.write(name + "\t" + "\t".join(map(repr, row.tolist())) + "\n")
-        return buf.getvalue()
+        return format_distance_tsv(self)
 
     def write(self, path):
         """Write the labelled TSV to ``path`` (atomically: a temporary file in
         the same folder, renamed into place when complete)."""
-        from .io.files import write_text_atomic
-
         write_text_atomic(path, self.to_tsv())
 
 
 def _unpickle(names, values, info):
     return DistanceMatrix._adopt(names, values, info=info)
-
-
-# The reader splits lines at \n (after turning \r\n and \r into \n) and
-# cells at tabs, and refuses NUL (binary); every other character survives a
-# round trip.
-_BAD_TSV_NAME = re.compile(r"[\t\n\r\x00]")
-# A cell: a plain decimal number (ASCII digits only: float() would also take
-# '1_000' and non-ASCII digits), or nan/inf so that the check below can say
-# that the distance is not finite.
-_NUM = r" *(?:[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?|[+-]?(?:nan|inf|infinity)) *"
-_CELL = re.compile(_NUM, re.I)
-_ROW_CELLS = re.compile(rf"(?:\t{_NUM})*", re.I)
 
 
 _KINDS = {"c": "complex", "b": "true/false", "O": "Python objects", "U": "text", "S": "bytes", "M": "date",
@@ -171,7 +147,24 @@ def _as_names(names, source):
                          source=source) from None
 
 
-def _as_float_dtype(dtype, source):
+def as_float_dtype(dtype, source=None):
+    """``dtype`` as a numpy float dtype a matrix may hold.
+
+    Parameters
+    ----------
+    dtype : numpy.float64 or numpy.float32 (or their names)
+    source : str, optional
+        File name to put in error messages.
+
+    Returns
+    -------
+    numpy.dtype
+
+    Raises
+    ------
+    InputError
+        For any other dtype.
+    """
     try:
         dt = np.dtype(dtype)
     except TypeError:
@@ -203,8 +196,24 @@ def _as_values(values, dtype, source):
     return np.array(arr, dtype=dtype, order="C", copy=True)
 
 
-def _validate(names, values, source, where=None):
-    """Check a matrix; ``where(i, j)`` gives the file position of cell (i, j)."""
+def check_distance_matrix(names, values, source=None, where=None):
+    """Check that ``values`` is a distance matrix for ``names``: square, one
+    row per unique name, finite, non-negative, zero diagonal, symmetric.
+
+    Parameters
+    ----------
+    names : sequence of str
+    values : ndarray, shape (n, n)
+    source : str, optional
+        File name to put in error messages.
+    where : callable, optional
+        ``where(i, j)`` gives the file position of cell (i, j) for messages.
+
+    Raises
+    ------
+    InputError
+        Naming the first problem (and its position) and the fix.
+    """
     _check_shape(names, values, source)
     _check_values(names, values, source, where)
 
@@ -252,84 +261,3 @@ def _check_values(names, values, source, where=None):
         raise InputError(f"{at(i, j)}the matrix is not symmetric: {names[i]!r}-{names[j]!r} is "
                          f"{float(values[i, j])!r} but {names[j]!r}-{names[i]!r} is {float(values[j, i])!r}; "
                          "make the two cells equal", source=source)
-
-
-def read_distance_matrix(path, *, text=None):
-    r"""Read a labelled TSV distance matrix.
-
-    The first line is an empty cell and the taxon names, tab-separated; then
-    one row per taxon, in the same order, its name first. Blank lines are
-    ignored; Windows and old Mac line endings are accepted.
-
-    Parameters
-    ----------
-    path : str or os.PathLike
-        The file (``-`` is standard input when ``text`` is given by the caller).
-    text : str, optional
-        The file's content, when the caller already has it.
-
-    Returns
-    -------
-    DistanceMatrix
-
-    Raises
-    ------
-    InputError
-        Naming the line (and column) of the first problem and the fix.
-
-    Examples
-    --------
-    >>> print(float(read_distance_matrix("m.tsv", text="\ta\tb\na\t0\t0.5\nb\t0.5\t0\n").values[0, 1]))
-    0.5
-    """
-    source = os.fspath(path)
-    if text is None:
-        from .io.files import read_text
-
-        text = read_text(path)
-    text = text.replace("\r\n", "\n").replace("\r", "\n")
-    numbered = [(k, ln) for k, ln in enumerate(text.split("\n"), start=1) if ln.strip(" ")]
-    if not numbered:
-        raise InputError("the file is empty; give a labelled TSV matrix (an empty cell, then the names)",
-                         source=source)
-    head_line, head = numbered[0]
-    header = head.split("\t")
-    if header[0].strip() != "":
-        raise InputError(f"line {head_line} must start with an empty cell followed by the taxon names, "
-                         "tab-separated", source=source)
-    names = [h.strip() for h in header[1:]]
-    if not names:
-        raise InputError(f"line {head_line} holds no taxon names; give an empty cell, then the names, "
-                         "tab-separated", source=source)
-    for c, name in enumerate(names):
-        if not name:
-            raise InputError(f"line {head_line}, column {c + 2}: an empty taxon name; give every column a name "
-                             "(and no tab at the end of the line)", source=source)
-    first = {}
-    for c, name in enumerate(names):
-        if name in first:
-            raise InputError(f"line {head_line}, columns {first[name] + 2} and {c + 2}: taxon {name!r} appears "
-                             "twice; give every taxon a unique name", source=source)
-        first[name] = c
-    n = len(names)
-    rows = numbered[1:]
-    if len(rows) != n:
-        raise InputError(f"{n} names on line {head_line} but {len(rows)} rows; give one row per name "
-                         "(the matrix must be square)", source=source)
-    values = np.empty((n, n))
-    for r, (lineno, line) in enumerate(rows):
-        cells = line.split("\t")
-        if len(cells) != n + 1:
-            raise InputError(f"line {lineno} has {len(cells) - 1} values, expected {n}; give one value per "
-                             "taxon (the matrix must be square)", source=source)
-        if cells[0].strip() != names[r]:
-            raise InputError(f"line {lineno} is labelled {cells[0].strip()!r} but column {r + 2} is "
-                             f"{names[r]!r}; rows and columns must follow the same order", source=source)
-        if not _ROW_CELLS.fullmatch(line, len(cells[0])):
-            c = next(k for k, x in enumerate(cells[1:]) if not _CELL.fullmatch(x))
-            raise InputError(f"line {lineno}, column {c + 2}: {cells[c + 1]!r} is not a number; give a decimal "
-                             "number such as 0.05", source=source)
-        values[r] = list(map(float, cells[1:]))
-    lines = [ln for ln, _ in rows]
-    _validate(names, values, source, where=lambda i, j: f"line {lines[i]}, column {j + 2}")
-    return DistanceMatrix._adopt(names, values)

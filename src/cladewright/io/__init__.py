@@ -1,41 +1,33 @@
-"""Reading and writing files: inputs (plain, gzip, standard input), trees in
-Newick and NEXUS (Maddison, Swofford & Maddison 1997, Syst. Biol.
-46:590-621)."""
+"""Reading and writing files.
+
+The formats (text <-> plain values; they import none of the nouns):
+:mod:`~cladewright.io.files` (reading inputs: plain, gzip, standard input),
+:mod:`~cladewright.io.output` (atomic outputs),
+:mod:`~cladewright.io.alignment_formats` and
+:mod:`~cladewright.io.nexus_alignment` (aligned FASTA and NEXUS),
+:mod:`~cladewright.io.matrix_tsv` (labelled TSV distance matrices),
+:mod:`~cladewright.io.newick`, :mod:`~cladewright.io.newick_writer` and
+:mod:`~cladewright.io.nexus` (trees in Newick and NEXUS; Maddison, Swofford &
+Maddison 1997, Syst. Biol. 46:590-621).
+
+:mod:`~cladewright.io.readers` makes alignments, distance matrices and trees
+of what those return; its readers are re-exported here. They are loaded on
+first use, so that the nouns can use the formats below them without
+loading the readers above them.
+"""
 
 from __future__ import annotations
 
-import os
-
-from .files import read_text
-
-__all__ = ["read_trees"]
+__all__ = ["read_trees", "read_alignment", "read_distance_matrix", "parse_newick", "parse_nexus_trees"]
 
 
-def read_trees(path):
-    """All trees in a Newick or NEXUS file.
+def __getattr__(name):
+    if name in __all__:
+        from . import readers
 
-    A file whose text starts with ``#NEXUS`` (case-insensitive, after any
-    blank lines) is read as NEXUS, any other as Newick.
+        return getattr(readers, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
-    Parameters
-    ----------
-    path : str or os.PathLike
-        The file (gzip allowed; ``-`` for standard input).
 
-    Returns
-    -------
-    list of Tree
-
-    References
-    ----------
-    Newick format: the trade's de facto standard (1986 informal specification);
-    Maddison, Swofford & Maddison (1997) Syst. Biol. 46:590-621.
-    """
-    from .newick import parse_newick
-    from .nexus import parse_nexus_trees
-
-    source = os.fspath(path)
-    text = read_text(path)
-    if text.lstrip()[:6].upper() == "#NEXUS":
-        return parse_nexus_trees(text, source=source)
-    return parse_newick(text, source=source)
+def __dir__():
+    return sorted(set(globals()) | set(__all__))

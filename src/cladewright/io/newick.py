@@ -1,4 +1,4 @@
-"""Reading and writing trees in Newick format.
+"""Reading trees in Newick format into plain arrays.
 
 Reading follows the Newick format (the trade's de facto standard, 1986
 informal specification): labels may be quoted with ``'...'`` (``''`` for an
@@ -9,19 +9,22 @@ value (its text kept beside it, so that support a tool did not compute is
 written back exactly as read), any other internal label is kept. The tokenizer and parser are
 iterative, so very deep trees do not hit a recursion limit.
 
-Writing quotes every label that would not read back exactly.
+The parser returns each tree as a :class:`TreeRecord` of plain arrays;
+:mod:`cladewright.io.readers` makes :class:`~cladewright.tree.Tree` objects
+of them, and :mod:`cladewright.io.newick_writer` writes trees back.
 """
 
 from __future__ import annotations
 
 import math
 import re
+from typing import NamedTuple
 
 import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["parse_newick", "format_newick", "quote_label", "format_length", "format_support"]
+__all__ = ["TreeRecord", "parse_newick_records", "parse_tree_span", "text_position", "read_number"]
 
 _TOKEN = re.compile(
     r"(?P<ws>\s+)"
@@ -33,21 +36,70 @@ _TOKEN = re.compile(
     re.S,
 )
 
-# Characters that cannot stand in an unquoted label (whitespace is tested
-# separately); '_' is here because a reader turns it into a space.
-_NEEDS_QUOTES = re.compile(r"[\s()\[\]':;,_]|[^\x21-\x7e]")
 _NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
 
 
-def _where(text, pos):
-    """'line L, column C' of offset ``pos`` (1-based)."""
+class TreeRecord(NamedTuple):
+    """One tree as read from text, in plain values (the arguments of
+    :class:`~cladewright.tree.Tree`).
+
+    Attributes
+    ----------
+    parent : int64 ndarray, shape (m,)
+        Parent of each node, ``-1`` for the root; leaves are ``0..n-1`` in
+        the order they appear in the text.
+    length : float64 ndarray, shape (m,)
+        Branch lengths, ``nan`` where none was given.
+    leaf_names : tuple of str
+    support : float64 ndarray, shape (m,)
+        Numeric internal labels, ``nan`` elsewhere.
+    labels : list of (str or None)
+        Non-numeric internal labels.
+    support_text : list of (str or None)
+        The text each support value was read from.
+    rooted : bool
+    offset : int
+        Where the tree starts in the text, for messages.
+    """
+
+    parent: np.ndarray
+    length: np.ndarray
+    leaf_names: tuple
+    support: np.ndarray
+    labels: list
+    support_text: list
+    rooted: bool
+    offset: int
+
+
+def text_position(text, pos):
+    """'line L, column C' of offset ``pos`` of ``text`` (both 1-based).
+
+    Parameters
+    ----------
+    text : str
+    pos : int
+
+    Returns
+    -------
+    str
+    """
     line = text.count("\n", 0, pos) + 1
     col = pos - (text.rfind("\n", 0, pos) + 1) + 1
     return f"line {line}, column {col}"
 
 
-def _number(word):
-    """float of ``word`` if it is a plain decimal number, else None."""
+def read_number(word):
+    """float of ``word`` if it is a plain, finite decimal number, else None.
+
+    Parameters
+    ----------
+    word : str
+
+    Returns
+    -------
+    float or None
+    """
     if _NUMBER.fullmatch(word):
         x = float(word)
         if math.isfinite(x):
@@ -55,8 +107,8 @@ def _number(word):
     return None
 
 
-def parse_newick(text, source=None):
-    """All trees of a Newick text.
+def parse_newick_records(text, source=None):
+    """All trees of a Newick text, as plain values.
 
     Parameters
     ----------
@@ -68,7 +120,7 @@ def parse_newick(text, source=None):
 
     Returns
     -------
-    list of Tree
+    list of TreeRecord
 
     Raises
     ------
@@ -78,26 +130,42 @@ def parse_newick(text, source=None):
     References
     ----------
     Newick format: the trade's de facto standard (1986 informal specification).
-
-    Examples
-    --------
-    >>> [t] = parse_newick("((a:1,b:2)90:0.5,c:3);")
-    >>> t.leaf_names, t.rooted
-    (('a', 'b', 'c'), True)
     """
-    trees = _parse_span(text, 0, len(text), source)
-    if not trees:
+    records = parse_tree_span(text, 0, len(text), source)
+    if not records:
         raise InputError("no tree found (the text is empty); give at least one tree ending in ';'",
                          source=source)
-    return trees
+    return records
 
 
-def _parse_span(text, start, end, source, expect_one=False):
-    """Trees in ``text[start:end]``; positions in errors refer to ``text``."""
+def parse_tree_span(text, start, end, source=None, expect_one=False):
+    """The trees of ``text[start:end]`` as plain values; positions in errors
+    refer to ``text`` (a NEXUS TREE command is such a span).
+
+    Parameters
+    ----------
+    text : str
+    start, end : int
+        The span to read.
+    source : str, optional
+        File name used in error messages.
+    expect_one : bool
+        Refuse text after the first tree.
+
+    Returns
+    -------
+    list of TreeRecord
+        Empty when the span holds nothing but blanks and comments.
+
+    Raises
+    ------
+    InputError
+        On malformed text, naming the line and column and the fix.
+    """
     trees = []
 
     def fail(pos, what):
-        raise InputError(f"{_where(text, pos)}: {what}", source=source)
+        raise InputError(f"{text_position(text, pos)}: {what}", source=source)
 
     # per-tree state; node data indexed by creation order
     par, lab, ln, internal, npos = [], [], [], [], []
@@ -151,13 +219,13 @@ def _parse_span(text, start, end, source, expect_one=False):
                 if kind == "word":
                     # unquoted numbers on internal nodes are support values;
                     # their text is kept so a tool can write them back as read
-                    value = _number(tok)
+                    value = read_number(tok)
                     lab[cur] = (value, tok) if value is not None else label
                 else:
                     lab[cur] = label
                 has_label = True
             elif state == 3:
-                value = _number(tok) if kind == "word" else None
+                value = read_number(tok) if kind == "word" else None
                 if value is None:
                     fail(pos, f"bad branch length {tok!r} after ':'; give a number such as 0.05")
                 ln[cur] = value
@@ -212,7 +280,7 @@ def _parse_span(text, start, end, source, expect_one=False):
             if stack:
                 fail(pos, f"unbalanced parentheses: {len(stack)} '(' not closed when the tree ends; "
                           "add the missing ')'")
-            trees.append(_make_tree(text, par, lab, ln, internal, npos, rooted_flag, source))
+            trees.append(_make_record(text, par, lab, ln, internal, npos, rooted_flag, source))
             par, lab, ln, internal, npos = [], [], [], [], []
             state, rooted_flag, cur, tree_start = 0, None, -1, None
     if state != 0:
@@ -223,8 +291,8 @@ def _parse_span(text, start, end, source, expect_one=False):
     return trees
 
 
-def _make_tree(text, par, lab, ln, internal, npos, rooted_flag, source):
-    from ..tree import Tree
+def _make_record(text, par, lab, ln, internal, npos, rooted_flag, source):
+    """The tree's nodes renumbered (leaves first, in the order read) as a TreeRecord."""
     internal = np.array(internal, dtype=bool)
     total = internal.size
     leaf_tmp = np.flatnonzero(~internal)
@@ -238,9 +306,9 @@ def _make_tree(text, par, lab, ln, internal, npos, rooted_flag, source):
         first = {}
         for i in leaf_tmp.tolist():
             if lab[i] in first:
-                raise InputError(f"{_where(text, npos[i])}: leaf name {lab[i]!r} is used twice in one tree "
-                                 f"(first at {_where(text, npos[first[lab[i]]])}); give every leaf a unique name",
-                                 source=source)
+                earlier = text_position(text, npos[first[lab[i]]])
+                raise InputError(f"{text_position(text, npos[i])}: leaf name {lab[i]!r} is used twice in one "
+                                 f"tree (first at {earlier}); give every leaf a unique name", source=source)
             first[lab[i]] = i
     old_par = np.array(par, dtype=np.int64)
     parent = np.empty(total, np.int64)
@@ -266,149 +334,4 @@ def _make_tree(text, par, lab, ln, internal, npos, rooted_flag, source):
         rooted = root >= n and int(np.count_nonzero(parent == root)) == 2
     else:
         rooted = rooted_flag
-    try:
-        return Tree(parent, length, names, support=support, labels=labels, rooted=rooted, support_text=texts)
-    except ValueError as err:
-        # the parser builds valid arrays; this guards a reader from ever
-        # failing with anything but InputError
-        raise InputError(f"{_where(text, npos[0])}: the tree is not valid ({err}); check the parentheses",
-                         source=source) from None
-
-
-# ---- writing -------------------------------------------------------------
-
-def quote_label(label, numeric_quoted=False):
-    """``label`` as a Newick token: bare if it reads back unchanged, else in
-    single quotes with inner quotes doubled.
-
-    Parameters
-    ----------
-    label : str
-    numeric_quoted : bool
-        Quote a label that looks like a number (internal labels, which a
-        reader would take as support).
-    """
-    if not label or _NEEDS_QUOTES.search(label) or (numeric_quoted and _number(label) is not None):
-        return "'" + label.replace("'", "''") + "'"
-    return label
-
-
-def format_length(x, digits=None):
-    """Branch length text: ``repr`` (exact round trip) or ``digits``
-    significant digits."""
-    x = float(x)
-    if digits is None:
-        return repr(x)
-    return format(x, f".{int(digits)}g")
-
-
-def format_support(x, support_digits=0):
-    """Support text: integer percentage, or ``support_digits`` decimals."""
-    return format(float(x), f".{int(support_digits)}f")
-
-
-def _kept_text(tree):
-    """Per node, the text a support value was read from while it still reads
-    as that value (else None): support a tool moved but did not compute is
-    written back exactly as it was read."""
-    texts = tree.support_text
-    if texts is None:
-        return [None] * tree.n_nodes
-    support = tree.support.tolist()
-    out = [None] * tree.n_nodes
-    for v, t in enumerate(texts):
-        if t is not None and _number(t) == support[v]:
-            out[v] = t
-    return out
-
-
-def _node_texts(tree, digits, support_digits, leaf_text=None):
-    """Text after each node's subtree: its label or support and ':length'."""
-    n, m = tree.n_leaves, tree.n_nodes
-    length, support, labels = tree.length.tolist(), tree.support.tolist(), tree.labels
-    names = tree.leaf_names if leaf_text is None else leaf_text
-    root = tree.root
-    kept = _kept_text(tree)
-    out = [""] * m
-    for v in range(m):
-        if v < n:
-            s = quote_label(names[v]) if leaf_text is None else names[v]
-        elif v != root and support[v] == support[v]:
-            s = kept[v] or format_support(support[v], support_digits)
-        elif labels[v] is not None:
-            s = quote_label(labels[v], numeric_quoted=True)
-        else:
-            s = ""
-        x = length[v]
-        if x == x:
-            s = s + ":" + format_length(x, digits)
-        out[v] = s
-    return out
-
-
-def _root_comment(tree):
-    """'[&R] '/'[&U] ' when a reader's default (rooted iff the root has two
-    children) would get the rooting wrong, else ''."""
-    two = tree.n_nodes > 1 and tree.children(tree.root).size == 2
-    if tree.rooted and not two:
-        return "[&R] "
-    if not tree.rooted and two:
-        return "[&U] "
-    return ""
-
-
-def format_newick(tree, digits=None, support_digits=0, leaf_text=None, root_comment=None):
-    """One tree as a Newick line ending in ``";\\n"``.
-
-    Parameters
-    ----------
-    tree : Tree
-    digits : int, optional
-        Significant digits of branch lengths (default: exact, ``repr``).
-    support_digits : int
-        Decimals of support values on internal nodes (0: integer percentages).
-        A value read from a file and not replaced since is written exactly
-        as it was read (:attr:`Tree.support_text`).
-    leaf_text : sequence of str, optional
-        Ready-made tokens to write for the leaves instead of their quoted
-        names (NEXUS TRANSLATE numbers).
-    root_comment : str, optional
-        Text written before the tree; default ``[&R]``/``[&U]`` only when
-        the shape alone would mislead a reader about the rooting.
-
-    Returns
-    -------
-    str
-
-    References
-    ----------
-    Newick format: the trade's de facto standard (1986 informal specification).
-    """
-    texts = _node_texts(tree, digits, support_digits, leaf_text)
-    n = tree.n_leaves
-    ptr = tree._ptr.tolist()
-    kids = tree._kids.tolist()
-    first = [True] * tree.n_nodes
-    parent = tree.parent.tolist()
-    for v in kids:
-        first[v] = kids[ptr[parent[v]]] == v
-    out = [_root_comment(tree) if root_comment is None else root_comment]
-    emit = out.append
-    stack = [tree.root]
-    while stack:
-        x = stack.pop()
-        if x >= 0:
-            if not first[x]:
-                emit(",")
-            if x < n:
-                emit(texts[x])
-            else:
-                emit("(")
-                stack.append(~x)
-                a, b = ptr[x], ptr[x + 1]
-                stack.extend(kids[b - 1:a - 1 if a else None:-1])
-        else:
-            emit(")")
-            emit(texts[~x])
-    emit(";\n")
-    return "".join(out)
+    return TreeRecord(parent, length, tuple(names), support, labels, texts, bool(rooted), npos[0])

@@ -6,6 +6,10 @@ tokens used in the trees to taxon names; without one, tree tokens that are
 numbers 1..ntax refer to the TAXLABELS of a TAXA block. Each tree is a TREE
 command whose description is Newick (the trade's de facto standard, 1986
 informal specification), read by :mod:`cladewright.io.newick`.
+
+The parser returns plain values (:class:`~cladewright.io.newick.TreeRecord`);
+:mod:`cladewright.io.readers` makes trees of them. The writer takes any tree
+object with the attributes of :class:`~cladewright.tree.Tree`.
 """
 
 from __future__ import annotations
@@ -13,9 +17,10 @@ from __future__ import annotations
 import re
 
 from ..errors import InputError
-from .newick import _parse_span, _where, format_newick
+from .newick import parse_tree_span, text_position
+from .newick_writer import format_newick
 
-__all__ = ["parse_nexus_trees", "format_nexus", "quote_nexus"]
+__all__ = ["parse_nexus_records", "format_nexus", "quote_nexus"]
 
 _TOKEN = re.compile(
     r"(?P<ws>\s+)"
@@ -51,7 +56,7 @@ def _tokens(text, source):
                 what = "a comment '[' is never closed; add the ']'"
             else:
                 what = f"unexpected {tok!r}"
-            raise InputError(f"{_where(text, pos)}: {what}", source=source)
+            raise InputError(f"{text_position(text, pos)}: {what}", source=source)
         yield kind, mt.group(), mt.start(), mt.end()
 
 
@@ -71,12 +76,12 @@ def _commands(text, source):
             yield cmd
             cmd = []
     if cmd:
-        raise InputError(f"{_where(text, cmd[0][2])}: command {cmd[0][1]!r} has no ending ';'; add ';'",
+        raise InputError(f"{text_position(text, cmd[0][2])}: command {cmd[0][1]!r} has no ending ';'; add ';'",
                          source=source)
 
 
-def parse_nexus_trees(text, source=None):
-    """Trees of every TREES block of a NEXUS text.
+def parse_nexus_records(text, source=None):
+    """Trees of every TREES block of a NEXUS text, as plain values.
 
     Parameters
     ----------
@@ -87,8 +92,14 @@ def parse_nexus_trees(text, source=None):
 
     Returns
     -------
-    list of Tree
-        Leaves carry the names given by TRANSLATE (or TAXLABELS).
+    list of TreeRecord
+        Leaves carry the names given by TRANSLATE (or TAXLABELS); a tree's
+        ``offset`` is where its TREE command starts.
+
+    Raises
+    ------
+    InputError
+        On malformed text, naming the line and column and the fix.
 
     References
     ----------
@@ -110,7 +121,7 @@ def parse_nexus_trees(text, source=None):
         key = tok.upper() if kind == "word" else tok
         if key == "BEGIN":
             if len(cmd) < 3:
-                raise InputError(f"{_where(text, pos)}: BEGIN without a block name; write e.g. 'BEGIN TREES;'",
+                raise InputError(f"{text_position(text, pos)}: BEGIN without a block name; write e.g. 'BEGIN TREES;'",
                                  source=source)
             block = cmd[1][1].upper()
             block_pos = pos
@@ -126,19 +137,19 @@ def parse_nexus_trees(text, source=None):
         elif block == "TREES" and key in ("TREE", "UTREE"):
             eq = next((i for i, t in enumerate(cmd) if t[0] == "punct" and t[1] == "="), None)
             if eq is None:
-                raise InputError(f"{_where(text, pos)}: TREE command without '= (tree)'; "
+                raise InputError(f"{text_position(text, pos)}: TREE command without '= (tree)'; "
                                  "write 'TREE name = (a,b,c);'", source=source)
             lo, hi = cmd[eq][3], cmd[-1][3]
-            got = _parse_span(body, lo, hi, source, expect_one=True)
+            got = parse_tree_span(body, lo, hi, source, expect_one=True)
             if not got:
-                raise InputError(f"{_where(text, cmd[eq][2])}: TREE command with no tree after '='; "
+                raise InputError(f"{text_position(text, cmd[eq][2])}: TREE command with no tree after '='; "
                                  "give the tree in Newick form", source=source)
-            tree = got[0]
+            tree = got[0]._replace(offset=pos)
             if key == "UTREE" and tree.rooted:
-                tree.rooted = False
+                tree = tree._replace(rooted=False)
             trees.append(_rename(tree, translate, taxlabels, text, pos, source))
     if block is not None:
-        raise InputError(f"{_where(text, block_pos)}: block {block} has no 'END;'; add 'END;' at its end",
+        raise InputError(f"{text_position(text, block_pos)}: block {block} has no 'END;'; add 'END;' at its end",
                          source=source)
     if not trees:
         raise InputError("no TREE command in a TREES block; give the trees in a 'BEGIN TREES;' block",
@@ -153,24 +164,24 @@ def _translate(text, cmd, source):
     i = 0
     while i < len(items):
         if i + 1 >= len(items) or items[i][0] == "punct" or items[i + 1][0] == "punct":
-            raise InputError(f"{_where(text, items[i][2])}: TRANSLATE entries must be 'token name' pairs "
+            raise InputError(f"{text_position(text, items[i][2])}: TRANSLATE entries must be 'token name' pairs "
                              "separated by ','; check the entry here", source=source)
         k = _word(items[i][0], items[i][1])
         if k in table:
-            raise InputError(f"{_where(text, items[i][2])}: TRANSLATE token {k!r} is used twice; "
+            raise InputError(f"{text_position(text, items[i][2])}: TRANSLATE token {k!r} is used twice; "
                              "give each token once", source=source)
         table[k] = _word(items[i + 1][0], items[i + 1][1])
         i += 2
         if i < len(items):
             if items[i][1] != ",":
-                raise InputError(f"{_where(text, items[i][2])}: expected ',' between TRANSLATE entries",
+                raise InputError(f"{text_position(text, items[i][2])}: expected ',' between TRANSLATE entries",
                                  source=source)
             i += 1
     return table
 
 
 def _rename(tree, translate, taxlabels, text, pos, source):
-    """The tree with leaf tokens replaced by taxon names."""
+    """The tree record with leaf tokens replaced by taxon names."""
     names = list(tree.leaf_names)
     if translate:
         names = [translate.get(x, x) for x in names]
@@ -184,15 +195,9 @@ def _rename(tree, translate, taxlabels, text, pos, source):
     if len(set(names)) != len(names):
         seen = set()
         dup = next(x for x in names if x in seen or seen.add(x))
-        raise InputError(f"{_where(text, pos)}: taxon {dup!r} appears twice in this tree after TRANSLATE; "
+        raise InputError(f"{text_position(text, pos)}: taxon {dup!r} appears twice in this tree after TRANSLATE; "
                          "fix the TRANSLATE table or the tree", source=source)
-    from ..tree import Tree
-    try:
-        return Tree(tree.parent, tree.length, names, support=tree.support, labels=tree.labels,
-                    rooted=tree.rooted, support_text=tree.support_text)
-    except ValueError as err:
-        raise InputError(f"{_where(text, pos)}: the tree is not valid after TRANSLATE ({err}); "
-                         "fix the TRANSLATE table or the tree", source=source) from None
+    return tree._replace(leaf_names=tuple(names))
 
 
 def quote_nexus(word):

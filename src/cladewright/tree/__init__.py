@@ -5,7 +5,8 @@ array of branch lengths and, optionally, support values and internal labels.
 Leaves are nodes ``0..n-1`` in the order of ``leaf_names``; internal nodes are
 ``n..m-1``. Children are kept as CSR arrays computed once; preorder and
 postorder are computed iteratively (no recursion, so a 50,000-leaf caterpillar
-is fine) and cached.
+is fine) and cached. The array walks are :mod:`cladewright.tree.layout`'s;
+Newick and NEXUS text is written by :mod:`cladewright.io`.
 
 Siblings are ordered by the smallest leaf index in their subtrees. A parser
 that numbers leaves in the order they appear therefore gets the written child
@@ -25,11 +26,12 @@ import math
 
 import numpy as np
 
-__all__ = ["Tree"]
+from ..io.newick_writer import format_newick
+from ..io.nexus import format_nexus
+from ..io.output import atomic_output
+from .layout import children_csr, leaf_intervals, split_bitsets, walk_preorder
 
-# Rows of the boolean membership matrix made at once in splits(): bounds the
-# temporary memory to about this many bytes.
-_SPLIT_CHUNK_CELLS = 1 << 24
+__all__ = ["Tree"]
 
 
 class Tree:
@@ -129,8 +131,8 @@ class Tree:
         self._labels, self._leaf_names, self.rooted = labels, names, bool(rooted)
         self._support_text = support_text
         self._root = int(roots[0])
-        self._ptr, self._kids = _children_csr(parent, n)
-        self._pre = _preorder(self._ptr, self._kids, self._root, mirror=False)
+        self._ptr, self._kids = children_csr(parent, n)
+        self._pre = walk_preorder(self._ptr, self._kids, self._root, mirror=False)
         if self._pre.shape[0] != m:
             raise ValueError("parent array contains a cycle or nodes not connected to the root")
         self._post = None
@@ -199,6 +201,11 @@ class Tree:
         """Children of ``node`` as an int64 array, in sibling order."""
         return self._kids[self._ptr[node]:self._ptr[node + 1]]
 
+    def children_table(self):
+        """Every node's children at once: ``kids[ptr[v]:ptr[v + 1]]`` are
+        those of ``v``, in sibling order (read-only int64 arrays)."""
+        return self._ptr, self._kids
+
     def n_children(self):
         """Number of children of every node (int64 array, shape (m,))."""
         return np.diff(self._ptr)
@@ -213,7 +220,7 @@ class Tree:
         if self._post is None:
             # Reversing a preorder that visits children right to left gives
             # the left-to-right postorder.
-            post = _preorder(self._ptr, self._kids, self._root, mirror=True)[::-1].copy()
+            post = walk_preorder(self._ptr, self._kids, self._root, mirror=True)[::-1].copy()
             post.flags.writeable = False
             self._post = post
         return self._post
@@ -223,16 +230,7 @@ class Tree:
         where leafseq is the leaves in preorder (a subtree's leaves are
         contiguous in any depth-first order)."""
         if self._intervals is None:
-            n, m = self.n_leaves, self.n_nodes
-            pre, post = self._pre, self.postorder()
-            is_leaf_pre = pre < n
-            lo = np.empty(m, np.int64)
-            # leaves strictly before v in preorder = leaves left of v's subtree
-            lo[pre] = np.cumsum(is_leaf_pre) - is_leaf_pre
-            hi = np.empty(m, np.int64)
-            # leaves up to v in postorder = leaves left of v's subtree and in it
-            hi[post] = np.cumsum(post < n)
-            self._intervals = (lo, hi, pre[is_leaf_pre])
+            self._intervals = leaf_intervals(self._pre, self.postorder(), self.n_leaves)
         return self._intervals
 
     def leaf_counts(self):
@@ -281,34 +279,7 @@ class Tree:
             where[leafseq] = np.arange(n)
             pos = where[np.fromiter((self.leaf_index(x) for x in order), np.int64, n)]
         # pos[j]: place in leafseq of the j-th leaf of `order`.
-        cand = self._pre[1:]  # every non-root node, in preorder
-        c_lo, c_hi = lo[cand], hi[cand]
-        # A set [0, a) is the complement of [a, n): key both by the latter so
-        # that complementary edges (degree-2 root) coincide.
-        k_lo = np.where(c_lo == 0, c_hi, c_lo)
-        k_hi = np.where(c_lo == 0, n, c_hi)
-        size = k_hi - k_lo
-        lim = 1 if trivial else 2
-        keep = (size >= lim) & (size <= n - lim)
-        key = k_lo[keep] * (n + 1) + k_hi[keep]
-        _, first = np.unique(key, return_index=True)
-        sel = np.flatnonzero(keep)[np.sort(first)]
-        nodes = cand[sel].astype(np.int64)
-        s_lo, s_hi = c_lo[sel], c_hi[sel]
-        words = (n + 63) // 64
-        bits = np.zeros((nodes.size, words), np.uint64)
-        step = max(1, _SPLIT_CHUNK_CELLS // max(n, 1))
-        pad = words * 64 - n
-        for a in range(0, nodes.size, step):
-            b = min(nodes.size, a + step)
-            member = (pos[None, :] >= s_lo[a:b, None]) & (pos[None, :] < s_hi[a:b, None])
-            # canonical side: the first leaf of `order` is outside the set
-            member ^= member[:, :1]
-            if pad:
-                member = np.concatenate([member, np.zeros((b - a, pad), bool)], axis=1)
-            packed = np.packbits(member, axis=1, bitorder="little")
-            bits[a:b] = packed.view("<u8").astype(np.uint64, copy=False)
-        return bits, nodes
+        return split_bitsets(lo, hi, self._pre, pos, trivial)
 
     # ---- derived values ---------------------------------------------------
     def patristic(self):
@@ -318,7 +289,7 @@ class Tree:
         -------
         float64 ndarray, shape (n, n)
         """
-        from .kernels.patristic import patristic_distances
+        from ..kernels.patristic import patristic_distances
         length = np.nan_to_num(np.asarray(self._length, dtype=np.float64), nan=0.0)
         parent = np.ascontiguousarray(self._parent)
         post = np.ascontiguousarray(self.postorder())
@@ -383,7 +354,6 @@ class Tree:
         ----------
         Newick format: the trade's de facto standard (1986 informal specification).
         """
-        from .io.newick import format_newick
         return format_newick(self, digits=digits, support_digits=support_digits)
 
     def write(self, path, format="newick", **options):
@@ -396,12 +366,9 @@ class Tree:
         **options
             ``digits``, ``support_digits`` (and ``tree_names`` for NEXUS).
         """
-        from .io.files import atomic_output
         if format == "newick":
-            from .io.newick import format_newick
             text = format_newick(self, **options)
         elif format == "nexus":
-            from .io.nexus import format_nexus
             text = format_nexus([self], **options)
         else:
             raise ValueError(f"unknown tree format {format!r}; use 'newick' or 'nexus'")
@@ -434,52 +401,3 @@ class Tree:
                 if not math.isnan(support[v]):
                     node.support = float(support[v])
         return root
-
-
-def _children_csr(parent, n):
-    """(ptr, kids): children of v are kids[ptr[v]:ptr[v+1]], ordered by the
-    smallest leaf index below each child."""
-    m = parent.shape[0]
-    par = parent.tolist()
-    minleaf = [-1] * m
-    # Leaves in increasing index: each climbs until it meets a node already
-    # claimed by a smaller leaf, so every node is visited once.
-    for leaf in range(n):
-        v = leaf
-        while v != -1 and minleaf[v] < 0:
-            minleaf[v] = leaf
-            v = par[v]
-    minleaf = np.array(minleaf, dtype=np.int64)
-    nonroot = np.flatnonzero(parent >= 0)
-    kids = nonroot[np.lexsort((minleaf[nonroot], parent[nonroot]))]
-    ptr = np.zeros(m + 1, np.int64)
-    np.cumsum(np.bincount(parent[nonroot], minlength=m), out=ptr[1:])
-    for a in (kids, ptr):
-        a.flags.writeable = False
-    return ptr, kids
-
-
-def _preorder(ptr, kids, root, mirror):
-    """Iterative depth-first preorder; children right to left if ``mirror``."""
-    p = ptr.tolist()
-    k = kids.tolist()
-    out = []
-    push = out.append
-    stack = [root]
-    pop = stack.pop
-    extend = stack.extend
-    if mirror:
-        while stack:
-            v = pop()
-            push(v)
-            extend(k[p[v]:p[v + 1]])
-    else:
-        while stack:
-            v = pop()
-            push(v)
-            a, b = p[v], p[v + 1]
-            if b > a:
-                extend(k[b - 1:a - 1 if a else None:-1])
-    res = np.array(out, dtype=np.int64)
-    res.flags.writeable = False
-    return res

@@ -1,0 +1,174 @@
+"""Writing trees in Newick format.
+
+Every label that would not read back exactly is quoted; a support value
+read from a file and not replaced since is written as it was read. The
+writer takes any tree object with the attributes of
+:class:`~cladewright.tree.Tree` (it imports no tree class) and walks it
+without recursion.
+
+References
+----------
+Newick format: the trade's de facto standard (1986 informal specification).
+"""
+
+from __future__ import annotations
+
+import re
+
+import numpy as np
+
+from .newick import read_number
+
+__all__ = ["format_newick", "quote_label", "format_length", "format_support"]
+
+# Characters that cannot stand in an unquoted label (whitespace is tested
+# separately); '_' is here because a reader turns it into a space.
+_NEEDS_QUOTES = re.compile(r"[\s()\[\]':;,_]|[^\x21-\x7e]")
+
+
+def quote_label(label, numeric_quoted=False):
+    """``label`` as a Newick token: bare if it reads back unchanged, else in
+    single quotes with inner quotes doubled.
+
+    Parameters
+    ----------
+    label : str
+    numeric_quoted : bool
+        Quote a label that looks like a number (internal labels, which a
+        reader would take as support).
+    """
+    if not label or _NEEDS_QUOTES.search(label) or (numeric_quoted and read_number(label) is not None):
+        return "'" + label.replace("'", "''") + "'"
+    return label
+
+
+def format_length(x, digits=None):
+    """Branch length text: ``repr`` (exact round trip) or ``digits``
+    significant digits."""
+    x = float(x)
+    if digits is None:
+        return repr(x)
+    return format(x, f".{int(digits)}g")
+
+
+def format_support(x, support_digits=0):
+    """Support text: integer percentage, or ``support_digits`` decimals."""
+    return format(float(x), f".{int(support_digits)}f")
+
+
+def _kept_text(tree):
+    """Per node, the text a support value was read from while it still reads
+    as that value (else None): support a tool moved but did not compute is
+    written back exactly as it was read."""
+    texts = tree.support_text
+    if texts is None:
+        return [None] * tree.n_nodes
+    support = tree.support.tolist()
+    out = [None] * tree.n_nodes
+    for v, t in enumerate(texts):
+        if t is not None and read_number(t) == support[v]:
+            out[v] = t
+    return out
+
+
+def _node_texts(tree, digits, support_digits, leaf_text=None):
+    """Text after each node's subtree: its label or support and ':length'."""
+    n, m = tree.n_leaves, tree.n_nodes
+    length, support, labels = tree.length.tolist(), tree.support.tolist(), tree.labels
+    names = tree.leaf_names if leaf_text is None else leaf_text
+    root = tree.root
+    kept = _kept_text(tree)
+    out = [""] * m
+    for v in range(m):
+        if v < n:
+            s = quote_label(names[v]) if leaf_text is None else names[v]
+        elif v != root and support[v] == support[v]:
+            s = kept[v] or format_support(support[v], support_digits)
+        elif labels[v] is not None:
+            s = quote_label(labels[v], numeric_quoted=True)
+        else:
+            s = ""
+        x = length[v]
+        if x == x:
+            s = s + ":" + format_length(x, digits)
+        out[v] = s
+    return out
+
+
+def _root_comment(tree):
+    """'[&R] '/'[&U] ' when a reader's default (rooted iff the root has two
+    children) would get the rooting wrong, else ''."""
+    two = tree.n_nodes > 1 and tree.children(tree.root).size == 2
+    if tree.rooted and not two:
+        return "[&R] "
+    if not tree.rooted and two:
+        return "[&U] "
+    return ""
+
+
+def _child_table(tree):
+    """(ptr, kids) as lists: the children of v are kids[ptr[v]:ptr[v+1]], in
+    the tree's sibling order (a preorder lists each node's children in that
+    order, so a stable sort of it by parent gives them)."""
+    parent = np.asarray(tree.parent)
+    below = np.asarray(tree.preorder())[1:]
+    kids = below[np.argsort(parent[below], kind="stable")]
+    ptr = np.zeros(parent.shape[0] + 1, np.int64)
+    np.cumsum(np.bincount(parent[below], minlength=parent.shape[0]), out=ptr[1:])
+    return ptr.tolist(), kids.tolist()
+
+
+def format_newick(tree, digits=None, support_digits=0, leaf_text=None, root_comment=None):
+    """One tree as a Newick line ending in ``";\\n"``.
+
+    Parameters
+    ----------
+    tree : Tree
+    digits : int, optional
+        Significant digits of branch lengths (default: exact, ``repr``).
+    support_digits : int
+        Decimals of support values on internal nodes (0: integer percentages).
+        A value read from a file and not replaced since is written exactly
+        as it was read (:attr:`Tree.support_text`).
+    leaf_text : sequence of str, optional
+        Ready-made tokens to write for the leaves instead of their quoted
+        names (NEXUS TRANSLATE numbers).
+    root_comment : str, optional
+        Text written before the tree; default ``[&R]``/``[&U]`` only when
+        the shape alone would mislead a reader about the rooting.
+
+    Returns
+    -------
+    str
+
+    References
+    ----------
+    Newick format: the trade's de facto standard (1986 informal specification).
+    """
+    texts = _node_texts(tree, digits, support_digits, leaf_text)
+    n = tree.n_leaves
+    ptr, kids = _child_table(tree)
+    first = [True] * tree.n_nodes
+    parent = tree.parent.tolist()
+    for v in kids:
+        first[v] = kids[ptr[parent[v]]] == v
+    out = [_root_comment(tree) if root_comment is None else root_comment]
+    emit = out.append
+    stack = [tree.root]
+    while stack:
+        x = stack.pop()
+        if x >= 0:
+            if not first[x]:
+                emit(",")
+            if x < n:
+                emit(texts[x])
+            else:
+                emit("(")
+                stack.append(~x)
+                a, b = ptr[x], ptr[x + 1]
+                stack.extend(kids[b - 1:a - 1 if a else None:-1])
+        else:
+            emit(")")
+            emit(texts[~x])
+    emit(";\n")
+    return "".join(out)
