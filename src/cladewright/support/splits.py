@@ -1,4 +1,4 @@
-"""Split-based support and tree comparison.
+"""Splits as bitsets: grouping equal splits and tallying them over many trees.
 
 Every tree is reduced to its unrooted bipartitions, given as rows of uint64
 bitsets by :meth:`cladewright.tree.Tree.splits` over one shared leaf order
@@ -9,22 +9,25 @@ per row, grouped with one sort, then checked word for word (a hash collision
 falls back to an exact row sort), which keeps 1,000 replicates of 1,000 taxa
 to a few vectorised passes.
 
+The support measures (:mod:`cladewright.support.measures`), the consensus
+(:mod:`cladewright.support.consensus`) and the tree distances
+(:mod:`cladewright.support.compare`) are built on these helpers.
+
 References
 ----------
-Felsenstein (1985) Evolution 39:783–791; Lemoine et al. (2018) Nature
-556:452–456; Margush & McMorris (1981) Bull. Math. Biol. 43:239–244;
-Robinson & Foulds (1981) Math. Biosci. 53:131–147; Kuhner & Felsenstein
-(1994) Mol. Biol. Evol. 11:459–468.
+Robinson & Foulds (1981) Math. Biosci. 53:131–147 (trees as sets of splits).
 """
 
 from __future__ import annotations
+
+from typing import NamedTuple
 
 import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["fbp_support", "tbe_support", "apply_support", "majority_consensus",
-           "robinson_foulds", "branch_score", "group_rows"]
+__all__ = ["group_rows", "check_taxa", "leaf_positions", "split_lengths", "SplitTally", "tally_splits",
+           "nonempty_trees"]
 
 # Rows gathered before one grouping pass: bounds the memory of counting
 # splits over many replicate trees.
@@ -86,7 +89,26 @@ def group_rows(rows):
     return first.astype(np.int64), inverse.astype(np.int64)
 
 
-def _check_taxa(names, other, what, source):
+def check_taxa(names, other, what, source):
+    """Refuse a tree whose leaves are not the reference's taxa.
+
+    Parameters
+    ----------
+    names : list of str
+        The reference tree's leaf names.
+    other : list of str
+        The other tree's leaf names (any order).
+    what : str
+        How messages name the other tree ("replicate tree 3").
+    source : str or None
+        The file of the other tree, for messages.
+
+    Raises
+    ------
+    InputError
+        When ``other`` repeats a name or holds other taxa; the message lists
+        up to five missing and five extra names.
+    """
     if other == names:
         return
     ref, got = set(names), set(other)
@@ -108,9 +130,21 @@ def _check_taxa(names, other, what, source):
     )
 
 
-def _split_lengths(tree, nodes):
-    """Length of the edge giving each split; the two edges at a degree-2 root
-    form one unrooted edge, so there the split's length is their sum."""
+def split_lengths(tree, nodes):
+    """Length of the edge giving each split.
+
+    Parameters
+    ----------
+    tree : Tree
+    nodes : int array (k,)
+        Nodes whose edges give the splits (as returned by ``tree.splits()``).
+
+    Returns
+    -------
+    float64 array (k,)
+        The edge lengths; the two edges at a degree-2 root form one unrooted
+        edge, so there the split's length is their sum (nan when both are nan).
+    """
     length = np.asarray(tree.length, dtype=np.float64)[nodes].copy()
     kids = tree.children(tree.root)
     if len(kids) == 2:
@@ -120,25 +154,63 @@ def _split_lengths(tree, nodes):
     return length
 
 
-def _leaf_positions(names, other):
+def leaf_positions(names, other):
+    """Position in ``names`` of each name of ``other`` (the same taxa, any order).
+
+    Parameters
+    ----------
+    names, other : list of str
+
+    Returns
+    -------
+    int64 array (len(other),)
+    """
     ref = np.asarray(names)
     order = np.argsort(ref, kind="stable")
     return order[np.searchsorted(ref[order], np.asarray(other))].astype(np.int64)
 
 
-def _tally(names, trees, source, what):
-    """Every distinct split of ``trees`` over the leaf order ``names``, with
-    the number of trees holding it and the sum and count of its finite
-    lengths; plus the same sums for the leaf edges."""
+class SplitTally(NamedTuple):
+    """Every distinct split of a set of trees, with its counts (see :func:`tally_splits`)."""
+
+    keys: np.ndarray          # uint64 (G, w): one bitset row per distinct split
+    count: np.ndarray         # trees holding each split
+    length_sum: np.ndarray    # sum of the split's finite lengths
+    length_count: np.ndarray  # how many of those lengths were finite
+    leaf_sum: np.ndarray      # (n,) sum of each leaf edge's finite lengths
+    leaf_count: np.ndarray    # (n,) how many of those were finite
+
+
+def tally_splits(names, trees, source, what):
+    """Every distinct split of ``trees`` over the leaf order ``names``.
+
+    Parameters
+    ----------
+    names : list of str
+        The shared leaf order.
+    trees : sequence of Tree
+        Trees over the same taxa (checked with :func:`check_taxa`).
+    source : str or None
+        The trees' file, for messages.
+    what : str
+        How messages name one tree ("replicate tree", "tree").
+
+    Returns
+    -------
+    SplitTally
+        The distinct splits with the number of trees holding each and the
+        sum and count of its finite lengths; plus the same sums for the leaf
+        edges.
+    """
     n = len(names)
     keys = np.zeros((0, (n + 63) // 64), dtype=np.uint64)
     count, lsum, lcnt = np.zeros(0), np.zeros(0), np.zeros(0)
     leaf_sum, leaf_cnt = np.zeros(n), np.zeros(n)
     batch, lens, rows = [], [], 0
     for r, t in enumerate(trees):
-        _check_taxa(names, t.leaf_names, f"{what} {r + 1}", source)
-        pos = _leaf_positions(names, t.leaf_names)
-        ll = _split_lengths(t, np.arange(n))
+        check_taxa(names, t.leaf_names, f"{what} {r + 1}", source)
+        pos = leaf_positions(names, t.leaf_names)
+        ll = split_lengths(t, np.arange(n))
         ok = np.isfinite(ll)
         leaf_sum[pos[ok]] += ll[ok]
         leaf_cnt[pos[ok]] += 1
@@ -146,7 +218,7 @@ def _tally(names, trees, source, what):
         # one tree holding the split.
         bits, nodes = t.splits(order=names)
         batch.append(bits)
-        lens.append(_split_lengths(t, nodes))
+        lens.append(split_lengths(t, nodes))
         rows += bits.shape[0]
         if rows < _BATCH_ROWS and r < len(trees) - 1:
             continue
@@ -165,284 +237,23 @@ def _tally(names, trees, source, what):
         lcnt = add(lcnt, g_new[ok])
         keys = stacked[first]
         batch, lens, rows = [], [], 0
-    return keys, count, lsum, lcnt, leaf_sum, leaf_cnt
+    return SplitTally(keys, count, lsum, lcnt, leaf_sum, leaf_cnt)
 
 
-def _as_list(trees, what):
-    trees = list(trees)
-    if not trees:
-        raise InputError(f"no {what} given; give at least one tree")
-    return trees
-
-
-def fbp_support(tree, replicates, *, source=None):
-    """Felsenstein bootstrap proportion of every internal edge of ``tree``.
-
-    Parameters
-    ----------
-    tree : Tree
-        Reference tree.
-    replicates : iterable of Tree
-        Replicate trees over the same taxa (leaf order may differ).
-    source : str, optional
-        Name of the replicate file, for error messages.
-
-    Returns
-    -------
-    float64 array (k,)
-        Percentage of replicates holding each split of ``tree.splits()``
-        (same order as its ``nodes``).
-
-    References
-    ----------
-    Felsenstein (1985) Evolution 39:783–791.
-
-    Examples
-    --------
-    >>> from cladewright.tree import Tree
-    >>> t = Tree([5, 5, 6, 6, 7, 7, 7, -1], [1.0] * 7 + [np.nan], list("abcde"))
-    >>> u = Tree([5, 6, 5, 6, 7, 7, 7, -1], [1.0] * 7 + [np.nan], list("abcde"))
-    >>> fbp_support(t, [t, u]).tolist()
-    [50.0, 50.0]
-    """
-    replicates = _as_list(replicates, "replicate trees")
-    ref_bits, _ = tree.splits()
-    keys, count, *_ = _tally(tree.leaf_names, replicates, source, "replicate tree")
-    _, inv = group_rows(np.vstack([keys, ref_bits]))
-    held = np.bincount(inv[: keys.shape[0]], weights=count, minlength=inv.size + 1)
-    return 100.0 * held[inv[keys.shape[0]:]] / len(replicates)
-
-
-def tbe_support(tree, replicates, *, source=None):
-    """Transfer bootstrap expectation of every internal edge of ``tree``.
-
-    For a split whose smaller side has ``p`` leaves, each replicate scores
-    ``1 - d / (p - 1)`` with ``d`` its transfer distance (the fewest leaves
-    to move to turn the split into one of the replicate's, leaf edges
-    included); the support is 100 times the mean score.
-
-    Parameters
-    ----------
-    tree : Tree
-        Reference tree.
-    replicates : iterable of Tree
-        Replicate trees over the same taxa.
-    source : str, optional
-        Name of the replicate file, for error messages.
-
-    Returns
-    -------
-    float64 array (k,)
-        Percentages in the order of ``tree.splits()``.
-
-    Notes
-    -----
-    Exact; O(k m) per replicate for ``k`` reference splits and ``m``
-    replicate nodes, i.e. O(n^2), compiled (:mod:`cladewright.kernels.transfer`).
-
-    References
-    ----------
-    Lemoine et al. (2018) Nature 556:452–456.
-    """
-    from ..kernels.transfer import transfer_distances
-
-    replicates = _as_list(replicates, "replicate trees")
-    names = tree.leaf_names
-    n = len(names)
-    ref_bits, _ = tree.splits()
-    ref_bits = np.ascontiguousarray(ref_bits, dtype=np.uint64)
-    size = np.bitwise_count(ref_bits).sum(axis=1).astype(np.int64)
-    scale = (np.minimum(size, n - size) - 1).astype(np.float64)
-    total = np.zeros(ref_bits.shape[0])
-    for r, rep in enumerate(replicates):
-        _check_taxa(names, rep.leaf_names, f"replicate tree {r + 1}", source)
-        pos = _leaf_positions(names, rep.leaf_names)
-        d = transfer_distances(ref_bits, size, n, np.ascontiguousarray(rep.parent, dtype=np.int64),
-                               np.ascontiguousarray(rep.postorder(), dtype=np.int64), pos)
-        total += 1.0 - d / scale
-    return 100.0 * total / len(replicates)
-
-
-def apply_support(tree, values):
-    """The tree with ``values`` put on the nodes of its internal edges.
-
-    Parameters
-    ----------
-    tree : Tree
-    values : array_like (k,) or (m,)
-        One value per split of ``tree.splits()`` (as returned by
-        :func:`fbp_support` or :func:`tbe_support`), or a full per-node array.
-
-    Returns
-    -------
-    Tree
-        ``tree.with_support(...)``; nodes without a split get nan, and so
-        do branches of length zero: a branch of length zero is no branch
-        (see :mod:`cladewright.polytomies`), so no support is shown on it.
-    """
-    from ..polytomies import ZERO_TOLERANCE
-
-    values = np.asarray(values, dtype=np.float64)
-    if values.shape == (tree.n_nodes,):
-        return tree.with_support(values.copy())
-    _, nodes = tree.splits()
-    if values.shape != nodes.shape:
-        raise ValueError(f"{values.size} support values for {nodes.size} internal edges")
-    support = np.full(tree.n_nodes, np.nan)
-    support[nodes] = values
-    lengths = _split_lengths(tree, nodes)
-    all_lengths = np.asarray(tree.length, dtype=np.float64)
-    finite = np.isfinite(all_lengths)
-    scale = float(np.abs(all_lengths[finite]).max()) if finite.any() else 0.0
-    support[nodes[np.isfinite(lengths) & (np.abs(lengths) <= ZERO_TOLERANCE * scale)]] = np.nan
-    return tree.with_support(support)
-
-
-def majority_consensus(trees, threshold=0.5, *, source=None):
-    """Majority-rule consensus tree.
+def nonempty_trees(trees, what):
+    """``trees`` as a list, refused when empty.
 
     Parameters
     ----------
     trees : iterable of Tree
-        Trees over the same taxa; the first fixes the leaf order.
-    threshold : float
-        Between 0.5 and 1. At 0.5 (the default) a split enters when it is in
-        more than half of the trees: the majority rule. Above 0.5 a split
-        enters when it is in at least this share of the trees, so 1 keeps
-        the splits in every tree: the strict consensus. Any such rule keeps
-        the chosen splits compatible, since two splits each in more than
-        half of the trees share a tree.
-    source : str, optional
-        Name of the tree file, for error messages.
+    what : str
+        How the message names them ("replicate trees").
 
     Returns
     -------
-    Tree
-        Unrooted, polytomies where unresolved, root of degree >= 3. Support
-        = percentage of trees holding the split; a split's length = mean of
-        its lengths over the trees holding it; leaf lengths = mean over all
-        trees (nan lengths are skipped).
-
-    References
-    ----------
-    Margush & McMorris (1981) Bull. Math. Biol. 43:239–244 (majority rule;
-    strict consensus as its limit, splits in all trees).
+    list of Tree
     """
-    from ..tree import Tree
-
-    trees = _as_list(trees, "trees")
-    if not 0.5 <= threshold <= 1.0:
-        raise InputError(f"consensus threshold {threshold} is outside 0.5..1; give a value in that range")
-    names = trees[0].leaf_names
-    n = len(names)
-    keys, count, lsum, lcnt, leaf_sum, leaf_cnt = _tally(names, trees, source, "tree")
-
-    # count / len is correctly rounded, so a share met exactly (7 of 10 trees
-    # at 0.7, every tree at 1) compares equal to the threshold.
-    freq = count / len(trees)
-    kept = np.flatnonzero(freq > 0.5 if threshold == 0.5 else freq >= threshold)
-    bits = keys[kept]
-    size = np.bitwise_count(bits).sum(axis=1)
-    # Largest first: each split's parent is then the smallest split already
-    # placed that holds its leaves (compatible canonical sets nest).
-    order = np.argsort(-size, kind="stable")
-    k = kept.size
-    m = n + k + 1
-    root = m - 1
-    parent = np.full(m, -1, dtype=np.int64)
-    length = np.full(m, np.nan)
-    support = np.full(m, np.nan)
-    home = np.full(n, root, dtype=np.int64)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        mean_len = lsum / lcnt
-    for t, j in enumerate(order):
-        node = root - 1 - t  # smaller splits get lower numbers: parents follow children
-        leaves = np.flatnonzero(np.unpackbits(bits[j].astype("<u8").view(np.uint8), bitorder="little")[:n])
-        parent[node] = home[leaves[0]]
-        home[leaves] = node
-        support[node] = 100.0 * freq[kept[j]]
-        length[node] = mean_len[kept[j]]
-    parent[:n] = home
-    with np.errstate(invalid="ignore", divide="ignore"):
-        length[:n] = leaf_sum / leaf_cnt
-    return Tree(parent, length, names, support=support, rooted=False)
-
-
-def _paired_splits(tree_a, tree_b, trivial, source):
-    _check_taxa(tree_a.leaf_names, tree_b.leaf_names, "second tree", source)
-    a_bits, a_nodes = tree_a.splits(trivial=trivial)
-    b_bits, b_nodes = tree_b.splits(order=tree_a.leaf_names, trivial=trivial)
-    _, inv = group_rows(np.vstack([a_bits, b_bits]))
-    return inv[: a_bits.shape[0]], inv[a_bits.shape[0]:], a_nodes, b_nodes
-
-
-def robinson_foulds(tree_a, tree_b, *, source=None):
-    """Robinson–Foulds distance on unrooted nontrivial splits.
-
-    Parameters
-    ----------
-    tree_a, tree_b : Tree
-        Trees over the same taxa.
-    source : str, optional
-        Name of the file of ``tree_b``, for error messages.
-
-    Returns
-    -------
-    dict
-        ``rf`` (splits in one tree only), ``max`` (2(n - 3), the largest
-        distance between two trees of n leaves; 0 when n < 4),
-        ``normalised`` (rf / max, 0 when max is 0), ``shared``, ``only_a``,
-        ``only_b`` (distinct splits).
-
-    References
-    ----------
-    Robinson & Foulds (1981) Math. Biosci. 53:131–147.
-
-    Examples
-    --------
-    >>> from cladewright.tree import Tree
-    >>> t = Tree([5, 5, 6, 6, 7, 7, 7, -1], [1.0] * 7 + [np.nan], list("abcde"))
-    >>> u = Tree([5, 6, 5, 6, 7, 7, 7, -1], [1.0] * 7 + [np.nan], list("abcde"))
-    >>> robinson_foulds(t, u)["rf"]
-    4
-    """
-    ga, gb, _, _ = _paired_splits(tree_a, tree_b, False, source)
-    ua, ub = np.unique(ga), np.unique(gb)
-    shared = int(np.intersect1d(ua, ub).size)
-    only_a, only_b = int(ua.size) - shared, int(ub.size) - shared
-    n = len(tree_a.leaf_names)
-    top = 2 * (n - 3) if n > 3 else 0
-    rf = only_a + only_b
-    return {"rf": rf, "max": top, "normalised": rf / top if top else 0.0,
-            "shared": shared, "only_a": only_a, "only_b": only_b}
-
-
-def branch_score(tree_a, tree_b, *, source=None):
-    """Branch score distance between two trees.
-
-    ``sqrt(sum over splits of (len_a - len_b)^2)`` over every split of
-    either tree, leaf edges included; a split missing from a tree has length
-    0 there, and so has an edge without a length.
-
-    Parameters
-    ----------
-    tree_a, tree_b : Tree
-        Trees over the same taxa.
-    source : str, optional
-        Name of the file of ``tree_b``, for error messages.
-
-    Returns
-    -------
-    float
-
-    References
-    ----------
-    Kuhner & Felsenstein (1994) Mol. Biol. Evol. 11:459–468 (the branch
-    score is the sum of squares; this returns its square root).
-    """
-    ga, gb, a_nodes, b_nodes = _paired_splits(tree_a, tree_b, True, source)
-    g_all = int(max(ga.max(initial=-1), gb.max(initial=-1))) + 1
-    la = np.nan_to_num(_split_lengths(tree_a, a_nodes))
-    lb = np.nan_to_num(_split_lengths(tree_b, b_nodes))
-    diff = np.bincount(ga, weights=la, minlength=g_all) - np.bincount(gb, weights=lb, minlength=g_all)
-    return float(np.sqrt(np.sum(diff * diff)))
+    trees = list(trees)
+    if not trees:
+        raise InputError(f"no {what} given; give at least one tree")
+    return trees
