@@ -27,7 +27,6 @@ from pathlib import Path
 from click.testing import CliRunner
 
 import cladewright as cw
-import cladewright.cli_tools  # noqa: F401 - registers the tree tools on the command group
 from cladewright.cli import main
 
 HERE = Path(__file__).resolve().parent

@@ -14,15 +14,15 @@ The pipeline runs one way: alignment -> pair counts -> DistanceMatrix -> Tree
 
 __version__ = "0.1.0"
 
-from .alignment import Alignment, distinct_sequences, identical_groups, read_alignment
+from .alignment import Alignment, distinct_sequences, identical_groups
 from .build import METHODS, build_tree, build_tree_with_info, fit_statistic
 from .distances import MODELS, distance_matrix
 from .errors import CladewrightError, InputError, SaturationError
-from .io import read_trees
-from .matrix import DistanceMatrix, read_distance_matrix
+from .io.readers import read_alignment, read_distance_matrix, read_trees
+from .matrix import DistanceMatrix
 from .support import (apply_support, branch_score, fbp_support, majority_consensus, robinson_foulds,
                       tbe_support)
-from .support.resample import BootstrapResult, bootstrap
+from .resampling import BootstrapResult, bootstrap
 from .pipeline import tree_from_alignment
 from .polytomies import attach_identical, collapse_zero_branches, resolve_polytomies
 from .tree import Tree

@@ -3,7 +3,8 @@ members all lie within a path-length distance ``d`` of each other.
 
 The use: sorting barcodes into groups at a divergence threshold. Each clade's
 diameter (its largest leaf-to-leaf path length) comes from one postorder
-pass: with ``height(v)`` the longest path from ``v`` down to a leaf,
+pass (:func:`cladewright.paths.longest_paths`): with ``height(v)`` the
+longest path from ``v`` down to a leaf,
 
     diameter(v) = max( max over children c of diameter(c),
                        max over children a != b of (height(a) + len(a) + height(b) + len(b)) ).
@@ -36,7 +37,9 @@ import math
 
 import numpy as np
 
+from .choices import CLUSTER_ROOTS
 from .errors import InputError
+from .paths import longest_paths
 
 __all__ = ["clusters_within", "clade_diameters", "REL_TOL"]
 
@@ -71,32 +74,11 @@ def clade_diameters(tree):
     >>> clade_diameters(t)[0].tolist()
     [0.0, 0.0, 0.0, 3.0, 3.5]
     """
-    n, m = tree.n_leaves, tree.n_nodes
-    ln = np.nan_to_num(np.asarray(tree.length, dtype=np.float64), nan=0.0).tolist()
-    par = tree.parent.tolist()
-    best1 = [0.0 if v < n else -math.inf for v in range(m)]
-    best2 = [-math.inf] * m
-    diam = [0.0] * m
-    for v in tree.postorder().tolist():
-        # Children are done: best1/best2 hold the two longest downward paths
-        # through different children, diam the largest child diameter.
-        if v >= n and best2[v] > -math.inf:
-            pair = best1[v] + best2[v]
-            if pair > diam[v]:
-                diam[v] = pair
-        p = par[v]
-        if p < 0:
-            continue
-        if diam[v] > diam[p]:
-            diam[p] = diam[v]
-        c = best1[v] + ln[v]
-        if c > best1[p]:
-            best2[p], best1[p] = best1[p], c
-        elif c > best2[p]:
-            best2[p] = c
-    # An internal node starts at diameter 0; a clade of negative-length paths
-    # only can have a negative true diameter, never relevant for d >= 0.
-    return np.array(diam), np.array(best1)
+    paths = longest_paths(tree.parent, tree.length, tree.postorder(), tree.n_leaves)
+    # A leaf's clade has no path (-inf) and counts 0; a clade of
+    # negative-length paths only can have a negative true diameter, never
+    # relevant for d >= 0, so diameters are floored at 0.
+    return np.maximum(paths.diameter, 0.0), paths.height
 
 
 def _branch_name(tree, v):
@@ -104,8 +86,14 @@ def _branch_name(tree, v):
     names = tree.leaf_names
     if v < tree.n_leaves:
         return f"the branch above taxon {names[v]!r}"
-    lo, hi, leafseq = tree._leaf_intervals()
-    below = sorted(names[i] for i in leafseq[lo[v]:hi[v]].tolist())
+    below, stack = [], [v]
+    while stack:  # an error message's few branches: a walk down is enough
+        u = stack.pop()
+        if u < tree.n_leaves:
+            below.append(names[u])
+        else:
+            stack.extend(tree.children(u).tolist())
+    below.sort()
     shown = ", ".join(repr(x) for x in below[:2]) + (f" and {len(below) - 2} more" if len(below) > 2 else "")
     return f"the branch above the clade of {shown}"
 
@@ -178,7 +166,7 @@ def clusters_within(tree, d, *, root="auto", source=None):
         raise InputError(f"the distance threshold {d!r} is not a number; give a value such as 0.02") from None
     if not math.isfinite(d) or d < 0:
         raise InputError(f"the distance threshold {d} must be a finite number >= 0; give a value such as 0.02")
-    if root not in ("auto", "stored", "midpoint"):
+    if root not in CLUSTER_ROOTS:
         raise ValueError(f"root must be 'auto', 'stored' or 'midpoint', not {root!r}")
     _need_lengths(tree, source)
     if root == "midpoint" or (root == "auto" and not tree.rooted and tree.n_leaves > 1):

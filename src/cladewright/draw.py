@@ -258,7 +258,7 @@ def render_tree(tree, path, highlight_below=None, ladderize=True, title=None, *,
     ...     render_tree(t, os.path.join(folder, "tree.svg"))
     'svg'
     """
-    from .io.files import atomic_output
+    from .io.output import atomic_output
 
     target = os.fspath(path)
     fmt = FORMATS.get(os.path.splitext(target)[1].lower())

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import os
 
+from .choices import JOINING_METHODS, LINKAGE_METHODS
 from .errors import InputError
 
 __all__ = ["estimate_bytes", "available_bytes", "check_fits", "replicate_tree_bytes", "check_replicates_fit"]
@@ -26,14 +27,18 @@ DISTANCE_WORK = 150 * 2**20
 # around them (measured with tracemalloc after the support count: about 1.5 kB + 0.2 kB per taxon), rounded up.
 TREE_BASE = 2048
 TREE_PER_TAXON = 256
+#: n x n matrices a tree method holds besides the input: the linkage methods one triangle (half a matrix),
+#: NJ its working copy, BIONJ also its variances (Gascuel 1997).
+WORKING_MATRICES = {**dict.fromkeys(LINKAGE_METHODS, 0.5), **dict.fromkeys(JOINING_METHODS, 1), "bionj": 2}
+#: The method suggested when BIONJ does not fit: the same search without the variance matrix.
+LEANER = {"bionj": "nj"}
 
 
 def _matrices(method):
-    """n x n matrices a tree method holds besides the input: NJ its working copy, BIONJ also its
-    variances, the linkage methods one triangle (half a matrix)."""
+    """n x n matrices ``method`` holds besides the input (see :data:`WORKING_MATRICES`); none without one."""
     if method is None:
         return 0
-    return {"bionj": 2, "nj": 1}.get(method, 0.5)
+    return WORKING_MATRICES.get(str(method).lower(), 0.5)
 
 
 def estimate_bytes(n, *, method=None, precision="double", workers=0):
@@ -132,14 +137,16 @@ def check_fits(n, *, method=None, precision="double", workers=0, available=None)
     need = estimate_bytes(n, method=method, precision=precision, workers=workers)
     if need <= available:
         return
+    # the fixes in the library's terms (parameters); the command line shows them as its options
     fixes = []
     if precision == "double" and estimate_bytes(n, method=method, precision="single", workers=workers) <= available:
-        fixes.append("--precision single")
+        fixes.append('precision="single"')
     for w in range(workers - 1, 0, -1):
         if estimate_bytes(n, method=method, precision=precision, workers=w) <= available:
-            fixes.append(f"--workers {w}")
+            fixes.append(f"workers={w}")
             break
-    if method == "bionj" and estimate_bytes(n, method="nj", precision=precision, workers=workers) <= available:
-        fixes.append("--method nj")
+    leaner = LEANER.get(str(method).lower()) if method else None
+    if leaner and estimate_bytes(n, method=leaner, precision=precision, workers=workers) <= available:
+        fixes.append(f'method="{leaner}"')
     hint = ("; " + " or ".join(fixes) + " would fit") if fixes else "; use a machine with more memory or fewer taxa"
     raise InputError(f"{n} taxa need about {_gib(need)} of memory but {_gib(available)} is available{hint}")

@@ -20,11 +20,18 @@ import numpy as np
 
 from .alignment import distinct_sequences
 from .build import build_tree_with_info
+from .choices import JOINING_METHODS, METHODS
 from .distances import ZERO_WHEN_IDENTICAL, distance_matrix, resolve_model
+from .errors import CladewrightWarning
 from .polytomies import ZERO_TOLERANCE, attach_identical, collapse_zero_branches
 
 __all__ = ["tree_from_alignment", "distinct_tree", "split_identical", "finish_tree", "zero_tolerance",
-           "identical_info"]
+           "identical_info", "run_warnings", "LITTLE_DATA"]
+
+#: Sequences with unambiguous states at fewer than this share of the sites are warned about.
+LITTLE_DATA = 0.5
+#: Saturated pairs and sequences with little data named in a warning at most.
+LISTED = 10
 
 
 def zero_tolerance(dtype):
@@ -88,7 +95,8 @@ def tree_from_alignment(alignment, model="k2p", method="nj", *, gamma=None, gaps
         zero-length leaves, branches of length zero contracted.
     info : dict
         As :func:`cladewright.build_tree_with_info`, the distance matrix's
-        facts, and ``identical_groups``, ``identical_sequences``.
+        facts, ``identical_groups``, ``identical_sequences``, ``negative``,
+        and ``warnings`` (see :func:`run_warnings`).
     dm : DistanceMatrix
         The distances of the distinct sequences (one row per group, named
         after its first sequence).
@@ -108,7 +116,8 @@ def tree_from_alignment(alignment, model="k2p", method="nj", *, gamma=None, gaps
     tree, info, dm = distinct_tree(distinct, model, method, gamma=gamma, gaps=gaps, freqs=freqs,
                                    saturated=saturated, negative=negative, dtype=dtype, progress=progress,
                                    n_sequences=alignment.n_taxa)
-    info.update(identical_info(group))
+    info.update(identical_info(group), negative=negative)
+    info["warnings"] = run_warnings(info, alignment)
     return finish_tree(tree, alignment.names, group, zero_tolerance(dtype)), info, dm
 
 
@@ -147,7 +156,6 @@ def distinct_tree(distinct, model, method, *, gamma=None, gaps="pairwise", freqs
 
 def _few_distinct(distinct, model, gamma, gaps, freqs, saturated, method, dtype, weights):
     """The tree of one or two distinct sequences (their groups added later)."""
-    from .build import METHODS
     from .matrix import DistanceMatrix
     from .tree import Tree
 
@@ -159,12 +167,74 @@ def _few_distinct(distinct, model, gamma, gaps, freqs, saturated, method, dtype,
         dm = DistanceMatrix(names, np.zeros((1, 1), dtype=dtype), validate=False, dtype=dtype,
                             info={"model": resolve_model(model, distinct.alphabet).name, "gamma": gamma,
                                   "gaps": gaps, "freqs": None, "saturated": 0, "cap": None})
-        tree = Tree([-1], [np.nan], names, rooted=m not in ("nj", "bionj"))
+        tree = Tree([-1], [np.nan], names, rooted=m not in JOINING_METHODS)
     else:
         dm = distance_matrix(distinct, model, gamma, gaps, freqs, saturated=saturated, weights=weights,
                              dtype=dtype)
         half = float(dm.values[0, 1]) / 2.0
-        tree = Tree([2, 2, -1], [half, half, np.nan], names, rooted=m not in ("nj", "bionj"))
+        tree = Tree([2, 2, -1], [half, half, np.nan], names, rooted=m not in JOINING_METHODS)
     info = {"method": m, "negative_branches": 0, "fit_name": None, "fit_value": None}
     info.update(dm.info)
     return tree, info, dm
+
+
+def run_warnings(info: dict, alignment=None) -> list[CladewrightWarning]:
+    """What a user should know about a run whose result stands, one record per kind.
+
+    Parameters
+    ----------
+    info : dict
+        The facts of a run, as :func:`tree_from_alignment`, :func:`cladewright.bootstrap`
+        or :func:`cladewright.build_tree_with_info` (with the distance matrix's ``info``)
+        return them: ``saturated``, ``cap``, ``saturated_pairs``, ``replicates_capped``,
+        ``replicates``, ``negative_branches``, ``negative``. Absent facts give no warning.
+    alignment : Alignment, optional
+        Sequences with unambiguous states at fewer than :data:`LITTLE_DATA` of its
+        sites are warned about.
+
+    Returns
+    -------
+    list of CladewrightWarning
+        In the order of :data:`cladewright.choices.WARNING_KINDS`, at most one of each
+        kind. Identical sequences are not a warning: they are facts of the run
+        (``identical_groups``).
+
+    Examples
+    --------
+    >>> [w.message for w in run_warnings({"negative_branches": 2, "negative": "keep"})]
+    ['2 negative branch length(s) kept as computed']
+    """
+    found = []
+    saturated = info.get("saturated") or 0
+    if saturated:
+        pairs = list(info.get("saturated_pairs") or [])[:LISTED]
+        shown = "; ".join(f"{a} – {b}" for a, b in pairs)
+        if shown and saturated > len(pairs):
+            shown += f" and {saturated - len(pairs)} more"
+        cap = info.get("cap")
+        found.append(CladewrightWarning("saturated", f"{saturated} saturated pair(s): distance undefined under "
+                                        "the model" + (f", set to {cap:.6g}" if cap is not None else "")
+                                        + (f" ({shown})" if shown else "")))
+    capped = info.get("replicates_capped") or 0
+    if capped:
+        found.append(CladewrightWarning("replicates_capped", f"{capped} of {info.get('replicates')} bootstrap "
+                                        "replicates drew sites that saturate a pair; those pairs were capped "
+                                        '(as saturated="cap" does)'))
+    negative = info.get("negative_branches") or 0
+    if negative:
+        rule = "kept as computed" if info.get("negative") == "keep" else "set to zero"
+        found.append(CladewrightWarning("negative_lengths", f"{negative} negative branch length(s) {rule}"))
+    if alignment is not None and alignment.n_sites:
+        share = (alignment.states < alignment.n_states).mean(axis=1)
+        low = np.flatnonzero(share < LITTLE_DATA)
+        low = low[np.argsort(share[low], kind="stable")]
+        if low.size:
+            first = int(low[0])
+            text = (f"sequence {alignment.names[first]} has unambiguous states at only {100 * share[first]:.0f}% "
+                    f"of the {alignment.n_sites} sites")
+            if low.size > 1:
+                others = ", ".join(f"{alignment.names[i]} ({100 * share[i]:.0f}%)" for i in low[1:LISTED].tolist())
+                more = f" and {low.size - LISTED} more" if low.size > LISTED else ""
+                text += f"; {low.size - 1} more have under {100 * LITTLE_DATA:.0f}%: {others}{more}"
+            found.append(CladewrightWarning("little_data", text))
+    return found

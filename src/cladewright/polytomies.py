@@ -244,4 +244,4 @@ def resolve_polytomies(tree):
 
 def _children(tree):
     """CSR children of every node, siblings in the tree's written order."""
-    return tree._ptr, tree._kids
+    return tree.children_table()

@@ -25,14 +25,13 @@ import shlex
 
 import numpy as np
 
+from .errors import CladewrightWarning
+
 __all__ = ["write_report", "report_html", "CAUTION", "software_versions"]
 
 CAUTION = ("A distance tree is exploratory evidence: a first look at the data. Where results may feed "
            "decisions about people, such as outbreak or transmission inference, do not rely on it alone: "
            "defer to validated methods, expert review and the rules that apply locally.")
-
-#: Sequences with unambiguous states at fewer than this share of sites are flagged.
-LITTLE_DATA = 0.5
 
 _CSS = """
 body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,"DejaVu Sans",sans-serif;color:#1b1f24;
@@ -48,12 +47,17 @@ pre{background:#f3f5f7;padding:.6rem;overflow-x:auto;white-space:pre-wrap;word-b
 
 def software_versions():
     """Versions of Python and the libraries a run depends on (dict)."""
+    from importlib import metadata
+
     import numba
     import scipy
     import matplotlib
-    from . import __version__
 
-    return {"cladewright": __version__, "python": platform.python_version(), "numpy": np.__version__,
+    try:
+        version = metadata.version("cladewright")
+    except metadata.PackageNotFoundError:  # run from a source tree that was never installed
+        version = "not installed"
+    return {"cladewright": version, "python": platform.python_version(), "numpy": np.__version__,
             "scipy": scipy.__version__, "numba": numba.__version__, "matplotlib": matplotlib.__version__,
             "platform": platform.platform()}
 
@@ -153,26 +157,22 @@ def _identical_alias(alignment, dm):
     return {names[i]: names[first[g]] for i, g in enumerate(group.tolist())}
 
 
-def _derived_warnings(alignment, dm, info):
+def _warnings(alignment, dm, info, given):
+    """The run's warnings, each worded once: the run's records (``info["warnings"]``,
+    else made from ``info``, ``dm.info`` and ``alignment`` by
+    :func:`cladewright.pipeline.run_warnings`), and those the caller gives; a given
+    :class:`CladewrightWarning` stands in for the run's record of its kind."""
+    from .pipeline import run_warnings
+
+    given = list(given or [])
+    records = info.get("warnings")
+    if records is None:
+        records = run_warnings({**dm.info, **info}, alignment)
+    kinds = {w.kind for w in given if isinstance(w, CladewrightWarning)}
     found = []
-    sat = dm.info.get("saturated") or 0
-    if sat:
-        pairs = dm.info.get("saturated_pairs") or []
-        shown = "; ".join(f"{a} – {b}" for a, b in pairs[:10]) + (f" and {len(pairs) - 10} more" if len(pairs) > 10
-                                                                    else "")
-        cap = dm.info.get("cap")
-        found.append(f"{sat} saturated pair(s): distance undefined under the model"
-                     + (f", set to {cap:.6g}" if cap is not None else "") + (f" ({shown})" if shown else ""))
-    neg = info.get("negative_branches") or 0
-    if neg:
-        rule = info.get("negative")
-        what = {"zero": "set to zero", "keep": "kept as they are"}.get(rule, "see the settings")
-        found.append(f"{neg} branch length(s) came out negative ({what})")
-    if alignment is not None and alignment.n_sites:
-        share = (alignment.states < alignment.n_states).mean(axis=1)
-        for i in np.flatnonzero(share < LITTLE_DATA).tolist():
-            found.append(f"sequence {alignment.names[i]} has unambiguous states at only {100 * share[i]:.0f}% "
-                         f"of the {alignment.n_sites} sites")
+    for w in given + [r for r in records if r.kind not in kinds]:
+        if str(w) not in found:
+            found.append(str(w))
     return found
 
 
@@ -192,10 +192,7 @@ def report_html(*, alignment=None, dm, tree, info=None, command_line="", warning
         support_values = 100.0 * np.asarray(support_values, dtype=np.float64)
     support_values = np.asarray(support_values, dtype=np.float64).reshape(-1)
     support_values = support_values[np.isfinite(support_values)]
-    all_warnings = []
-    for w in list(warnings or []) + _derived_warnings(alignment, dm, info):
-        if w not in all_warnings:
-            all_warnings.append(w)
+    all_warnings = _warnings(alignment, dm, info, warnings)
 
     esc = html.escape
     when = _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat()
@@ -220,7 +217,8 @@ def report_html(*, alignment=None, dm, tree, info=None, command_line="", warning
     parts.append(f"<section id=\"input\"><h2>Input</h2>{_rows(rows)}</section>")
 
     settings = [(k, v) for k, v in dm.info.items() if k not in ("saturated_pairs",)]
-    settings += [(k, v) for k, v in info.items() if k not in ("fit_name", "fit_value") and k not in dm.info]
+    settings += [(k, v) for k, v in info.items()
+                 if k not in ("fit_name", "fit_value", "warnings") and k not in dm.info]
     parts.append(f"<section id=\"settings\"><h2>Settings</h2>{_rows(settings)}"
                  f"<p>Command line:</p><pre id=\"command-line\">{esc(command_line)}</pre></section>")
 
@@ -284,10 +282,14 @@ def write_report(path, *, alignment=None, dm, tree, info=None, command_line="", 
         ``fit_name``/``fit_value``, ``negative_branches``...), shown as given.
     command_line : str or sequence of str
         The exact command line (a sequence is shell-quoted).
-    warnings : sequence of str, optional
-        Warnings raised during the run; saturated pairs, negative branch
-        lengths and sequences with little data are added from ``dm.info``,
-        ``info`` and ``alignment``.
+    warnings : sequence of str or CladewrightWarning, optional
+        Warnings of the caller's own, shown beside the run's: those in
+        ``info["warnings"]``, or, when ``info`` holds none, those
+        :func:`cladewright.pipeline.run_warnings` makes from ``dm.info``,
+        ``info`` and ``alignment`` (saturated pairs, capped replicates,
+        negative branch lengths, sequences with little data). Each is shown
+        once; a CladewrightWarning given here replaces the run's own of its
+        kind.
     support_values : array_like, optional
         Support of the internal branches, for the histogram, on the tree's
         own scale; default the tree's finite support values. Support read
@@ -302,7 +304,7 @@ def write_report(path, *, alignment=None, dm, tree, info=None, command_line="", 
     Felsenstein (1985) Evolution 39:783-791; Sokal & Rohlf (1962) Taxon
     11:33-40; Fitch & Margoliash (1967) Science 155:279-284.
     """
-    from .io.files import write_text_atomic
+    from .io.output import write_text_atomic
 
     text = report_html(alignment=alignment, dm=dm, tree=tree, info=info, command_line=command_line,
                        warnings=warnings, support_values=support_values, highlight_below=highlight_below,

@@ -22,11 +22,10 @@ Math. Biosci. 53:131-147 (splits of an unrooted tree).
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 
 from .errors import InputError
+from .paths import longest_paths
 from .tree import Tree
 
 __all__ = ["midpoint_root", "outgroup_root", "root_tree"]
@@ -152,12 +151,13 @@ def midpoint_root(tree):
 
     Notes
     -----
-    O(n): one postorder pass keeps, for every node, the two longest paths
-    down to a leaf through different children; the diameter is the largest
-    sum of such a pair (exact for any signs of the lengths). Ties go to the
-    first pair found in postorder. With negative lengths the root goes on
-    the first branch, walking from the farther end, where the running
-    length reaches half the diameter.
+    O(n): one postorder pass (:func:`cladewright.paths.longest_paths`)
+    keeps, for every node, the two longest paths down to a leaf through
+    different children; the diameter is the largest sum of such a pair
+    (exact for any signs of the lengths). Ties go to the first pair found in
+    postorder. With negative lengths the root goes on the first branch,
+    walking from the farther end, where the running length reaches half the
+    diameter.
 
     References
     ----------
@@ -175,28 +175,12 @@ def midpoint_root(tree):
         raise InputError("the tree has no branch lengths, so it has no midpoint; root it on an outgroup instead")
     arrays = _unrooted_arrays(tree)
     par, length, _, _, post, _ = arrays
-    n, m = tree.n_leaves, tree.n_nodes
+    paths = longest_paths(par, length, post, tree.n_leaves)
+    top = int(post[-1])  # the top of the unrooted tree comes last in postorder
+    diameter = float(paths.diameter[top])
+    end1, end2, apex = paths.ends[top].tolist()
     ln = np.nan_to_num(length, nan=0.0).tolist()
-    best1 = [0.0 if v < n else -math.inf for v in range(m)]
-    best2 = [-math.inf] * m
-    leaf1 = [v if v < n else -1 for v in range(m)]
-    leaf2 = [-1] * m
     p_list = par.tolist()
-    top = (-math.inf, -1, -1, -1)
-    for v in post.tolist():
-        b2 = best2[v]
-        if b2 > -math.inf and best1[v] + b2 > top[0]:
-            top = (best1[v] + b2, leaf1[v], leaf2[v], v)
-        p = p_list[v]
-        if p < 0:
-            continue
-        c = best1[v] + ln[v]
-        if c > best1[p]:
-            best2[p], leaf2[p] = best1[p], leaf1[p]
-            best1[p], leaf1[p] = c, leaf1[v]
-        elif c > best2[p]:
-            best2[p], leaf2[p] = c, leaf1[v]
-    diameter, end1, end2, apex = top
     half = diameter / 2.0
     # Walk up from the end with the longer path to the apex (unless that end
     # is the apex itself, a leaf at the top): the running sum reaches half
@@ -333,14 +317,16 @@ def _not_a_clade(tree, arrays, out, size, hits, edges):
                      f"or choose another outgroup")
 
 
-def root_tree(tree, spec):
-    """Root a tree as the ``--root`` option asks.
+def root_tree(tree: Tree, *, midpoint: bool = False, outgroup=None) -> Tree:
+    """Root a tree at its midpoint or on an outgroup: exactly one of the two.
 
     Parameters
     ----------
     tree : Tree
-    spec : str
-        ``"midpoint"``, or a comma-separated list of outgroup taxa.
+    midpoint : bool
+        Root at the midpoint of the longest leaf-to-leaf path (:func:`midpoint_root`).
+    outgroup : sequence of str, optional
+        Root on the branch that separates these taxa (:func:`outgroup_root`).
 
     Returns
     -------
@@ -350,10 +336,17 @@ def root_tree(tree, spec):
     References
     ----------
     Robinson & Foulds (1981) Math. Biosci. 53:131-147 (splits).
+
+    Examples
+    --------
+    >>> t = Tree([4, 4, 5, 5, 5, -1], [1.0, 1.0, 1.0, 1.0, 2.0, float("nan")], list("abcd"))
+    >>> root_tree(t, outgroup=["c", "d"]).to_newick()
+    '((a:1.0,b:1.0):1.0,(c:1.0,d:1.0):1.0);\\n'
     """
-    text = (spec or "").strip()
-    if not text:
-        raise InputError("empty root specification; give 'midpoint' or outgroup taxa separated by commas")
-    if text.lower() == "midpoint":
+    if bool(midpoint) == (outgroup is not None):
+        raise InputError("give exactly one of midpoint=True or outgroup=[taxa]")
+    if midpoint:
         return midpoint_root(tree)
-    return outgroup_root(tree, text.split(","))
+    if isinstance(outgroup, str):
+        raise InputError(f"outgroup={outgroup!r} is one string; give the taxa as a list, e.g. outgroup=['a', 'b']")
+    return outgroup_root(tree, list(outgroup))

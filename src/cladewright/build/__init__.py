@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..choices import METHODS, NEGATIVE_RULES as NEGATIVE
 from ..errors import InputError
 from ..kernels.matrix import first_non_finite
 from .fit import fit_statistic
@@ -21,9 +22,8 @@ from .nj import nj_arrays
 __all__ = ["METHODS", "LINKAGE_METHODS", "build_tree", "build_tree_with_info", "fit_statistic",
            "linkage_arrays", "nj_arrays"]
 
-#: Every method name build_tree accepts.
-METHODS = ("upgma", "wpgma", "single", "complete", "nj", "bionj")
-NEGATIVE = ("zero", "keep")
+# METHODS (every method name build_tree accepts) and NEGATIVE (the negative-length rules) are
+# cladewright.choices' vocabularies, named here as the package has always named them.
 
 
 def build_tree_with_info(dm, method="nj", negative="zero", *, source=None, fit=True, sizes=None):

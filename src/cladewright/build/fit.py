@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..choices import LINKAGE_METHODS, METHODS
 from ..errors import InputError
 from ..kernels.patristic import upper_pearson, upper_relative_squares
 
@@ -20,8 +21,6 @@ __all__ = ["fit_statistic", "cophenetic_correlation", "percent_standard_deviatio
 
 COPHENETIC = "cophenetic correlation"
 PSD = "percent standard deviation"
-_LINKAGE = ("upgma", "wpgma", "single", "complete")
-_JOINING = ("nj", "bionj")
 
 
 def cophenetic_correlation(patristic, distances):
@@ -114,10 +113,9 @@ def fit_statistic(tree, dm, method=None):
         linkage = bool(tree.rooted)
     else:
         method = str(method).lower()
-        if method not in _LINKAGE + _JOINING:
-            raise InputError(f"unknown tree method {method!r}; choose one of "
-                             f"{', '.join(_LINKAGE + _JOINING)}")
-        linkage = method in _LINKAGE
+        if method not in METHODS:
+            raise InputError(f"unknown tree method {method!r}; choose one of {', '.join(METHODS)}")
+        linkage = method in LINKAGE_METHODS
     if linkage:
         return COPHENETIC, cophenetic_correlation(P, values)
     return PSD, percent_standard_deviation(P, values)

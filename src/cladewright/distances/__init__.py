@@ -15,10 +15,11 @@ from typing import Callable
 import numpy as np
 
 from ..alignment import Alignment, distinct_sequences
+from ..choices import FREQ_MODES, GAP_MODES, SATURATED_MODES
 from ..errors import InputError, SaturationError
 from ..kernels import counts as kc
 from ..kernels.matrix import mirror_upper, pairs_before
-from ..matrix import DistanceMatrix, _as_float_dtype
+from ..matrix import DistanceMatrix, as_float_dtype
 from ..progress import Progress
 from . import nucleotide as nuc
 from . import protein as prot
@@ -66,9 +67,6 @@ MODELS = {m.name: m for m in [
           "Kimura's approximation for protein", "Kimura 1983"),
 ]}
 
-GAP_MODES = ("pairwise", "complete")
-FREQ_MODES = ("alignment", "pair")
-SATURATED_MODES = ("error", "cap")
 MAX_LISTED = 10
 # Models whose formula gives 0 for two identical sequences whatever the base
 # frequencies; LogDet (-1/4 ln det F - ln 4, Lockhart et al. 1994) does not.
@@ -90,7 +88,8 @@ def resolve_model(model, alphabet, source=None):
     if spec.alphabet != alphabet:
         fit = ", ".join(n if n != "protein-p" else "p" for n, m in MODELS.items() if m.alphabet == alphabet)
         raise InputError(f"model {model!r} is for {spec.alphabet} but the alignment is {alphabet}; "
-                         f"choose one of {fit} (or --alphabet if the alphabet was misdetected)", source=source)
+                         f"choose one of {fit} (or alphabet=\"{spec.alphabet}\" if the alphabet was misdetected)",
+                         source=source)
     return spec
 
 
@@ -163,7 +162,7 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
         gamma = _gamma_shape(gamma, src)
         if not spec.gamma:
             with_gamma = ", ".join(n for n, m in MODELS.items() if m.gamma)
-            raise InputError(f"model {spec.name} has no gamma form; drop --gamma or choose one of {with_gamma}",
+            raise InputError(f"model {spec.name} has no gamma form; set gamma=None or choose one of {with_gamma}",
                              source=src)
     if not isinstance(gaps, str) or gaps not in GAP_MODES:
         raise InputError(f"unknown gap mode gaps={gaps!r}; choose gaps=\"pairwise\" or \"complete\"", source=src)
@@ -173,7 +172,7 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
     if not isinstance(saturated, str) or saturated not in SATURATED_MODES:
         raise InputError(f"unknown saturation rule saturated={saturated!r}; choose saturated=\"error\" or "
                          "\"cap\"", source=src)
-    dtype = _as_float_dtype(dtype, src)
+    dtype = as_float_dtype(dtype, src)
     n = alignment.n_taxa
     if n < 2:
         raise InputError(f"the alignment has {n} sequence(s); distances need at least two: add sequences",
@@ -199,7 +198,7 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
         use = np.all(patterns < k, axis=0)
         if not np.any(use & (weights > 0)):
             raise InputError("no site is unambiguous in every sequence, so complete deletion leaves nothing; "
-                             "use --gaps pairwise", source=src)
+                             "use gaps=\"pairwise\"", source=src)
 
     kind = spec.counts
     pi = None
@@ -253,7 +252,7 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
             raise SaturationError(
                 f"model {spec.name}: distance undefined ({why}) for "
                 f"{n_undefined} pair(s): {listed}{more}; choose a model that saturates later (e.g. p) or pass "
-                "--saturated cap to set them to a cap and go on", undefined, source=src)
+                "saturated=\"cap\" to set them to a cap and go on", undefined, source=src)
         finite = values[np.isfinite(values)]
         cap = max(1.0, 2.0 * float(finite.max()) if finite.size else 1.0)
         values[~np.isfinite(values)] = cap

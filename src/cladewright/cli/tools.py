@@ -1,6 +1,6 @@
 """Tree tools on the command line: root, compare, clusters, draw, show.
 
-Registered on :data:`cladewright.cli.main` (``cli.py`` imports this module).
+Registered on :data:`cladewright.cli.main` (the package imports this module).
 No computation here: read, call the library, write, report.
 """
 
@@ -9,15 +9,14 @@ from __future__ import annotations
 import click
 import numpy as np
 
-from .cli import Context, check_output_not_input, guarded, main  # noqa: F401 - Context is obj's type
-from .errors import InputError
-
-ROOT_HELP = "Root first: 'midpoint', or outgroup taxa separated by commas."
+from ..choices import CLUSTER_ROOTS
+from ..errors import InputError
+from .app import ROOT_HELP, check_output_not_input, guarded, main, root_options
 
 
 def _first_tree(path, obj=None):
     """The first tree of a Newick or NEXUS file (a note when it holds more)."""
-    from .io import read_trees
+    from ..io import read_trees
 
     trees = read_trees(path)
     if not trees:
@@ -66,7 +65,7 @@ def root(obj, tree_path, output, midpoint, outgroup):
     Branch lengths are split where the root falls; support stays with the
     split it belongs to.
     """
-    from .rooting import midpoint_root, outgroup_root
+    from ..rooting import midpoint_root, outgroup_root
 
     if midpoint == bool(outgroup):
         raise InputError("give exactly one of --midpoint or --outgroup TAXON[,TAXON...]")
@@ -83,7 +82,7 @@ def root(obj, tree_path, output, midpoint, outgroup):
 
 
 def _pair(paths, trees, i, j):
-    from .support import branch_score, robinson_foulds
+    from ..support import branch_score, robinson_foulds
 
     rf = robinson_foulds(trees[i], trees[j], source=paths[j])
     rf["branch_score"] = branch_score(trees[i], trees[j], source=paths[j])
@@ -114,7 +113,7 @@ def compare(obj, tree_files, tsv, output):
     Rooting is ignored (splits of the unrooted trees). With more than two
     trees the distances are shown as matrices.
     """
-    from .io.files import write_text_atomic
+    from ..io.output import write_text_atomic
 
     if len(tree_files) < 2:
         raise InputError("compare needs at least two tree files")
@@ -160,7 +159,7 @@ def compare(obj, tree_files, tsv, output):
 @click.option("--within", "within", type=float, required=True, metavar="D",
               help="Largest path length between two members of a group (inclusive).")
 @click.option("--output", "-o", required=True, metavar="FILE", help="TSV of taxon and group ('-': stdout).")
-@click.option("--root", "rooting", type=click.Choice(["auto", "stored", "midpoint"]), default="auto",
+@click.option("--root", "rooting", type=click.Choice(CLUSTER_ROOTS), default="auto",
               show_default=True, help="auto: a rooted tree as stored, an unrooted one midpoint-rooted first.")
 @click.pass_obj
 @guarded
@@ -172,8 +171,8 @@ def clusters(obj, tree_path, within, output, rooting):
     Groups are numbered from 1, largest first, ties by their alphabetically
     first taxon.
     """
-    from .clusters import clusters_within
-    from .io.files import write_text_atomic
+    from ..clusters import clusters_within
+    from ..io.output import write_text_atomic
 
     check_output_not_input(output, tree_path)
     tree = _first_tree(tree_path, obj)
@@ -204,16 +203,16 @@ def clusters(obj, tree_path, within, output, rooting):
 @guarded
 def draw(obj, tree_path, output, highlight_below, no_ladderize, title, root_spec, groups_within):
     """Draw the first tree of TREE as a figure (SVG, PNG or PDF by suffix)."""
-    from .draw import render_tree
+    from ..draw import render_tree
 
     check_output_not_input(output, tree_path)
     tree = _first_tree(tree_path, obj)
     if root_spec:
-        from .rooting import root_tree
-        tree = root_tree(tree, root_spec)
+        from ..rooting import root_tree
+        tree = root_tree(tree, **root_options(root_spec))
     groups = None
     if groups_within is not None:
-        from .clusters import clusters_within
+        from ..clusters import clusters_within
         groups, sizes = clusters_within(tree, groups_within, source=tree_path)
     fmt = render_tree(tree, output, highlight_below=highlight_below, ladderize=not no_ladderize, title=title,
                     groups=groups)
@@ -233,12 +232,12 @@ def draw(obj, tree_path, output, highlight_below, no_ladderize, title, root_spec
 def show(obj, tree_path, plain, width, no_ladderize, root_spec):
     """Print the first tree of TREE as a text drawing, with support values
     (as percentages; support read on a 0-1 scale is multiplied by 100)."""
-    from .textdraw import text_tree
+    from ..textdraw import text_tree
 
     tree = _first_tree(tree_path, obj)
     if root_spec:
-        from .rooting import root_tree
-        tree = root_tree(tree, root_spec)
+        from ..rooting import root_tree
+        tree = root_tree(tree, **root_options(root_spec))
     _scale_note(obj, tree)
     click.echo(text_tree(tree, width=width, ascii=plain, ladderize=not no_ladderize), nl=False)
 

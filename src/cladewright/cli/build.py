@@ -1,0 +1,168 @@
+"""The commands that build: ``distances`` (a matrix from an alignment) and ``tree``
+(a tree from an alignment or a matrix, with bootstrap support, a root and a report)."""
+
+from __future__ import annotations
+
+import os
+import sys
+import time
+
+import click
+
+from ..choices import JOINING_METHODS, LINKAGE_METHODS, NEGATIVE_RULES, PRECISIONS, SUPPORT_MEASURES
+from ..distances import MODELS
+from ..errors import InputError
+from ..matrix import DistanceMatrix
+from ..memory import check_fits
+from .app import (check_output_not_input, guarded, main, model_options, output_format, root_options,
+                  tree_output_options, write_tree)
+from .summary import distance_summary, shown_warnings, tree_summary
+
+__all__ = ["distances", "tree", "read_input"]
+
+MODEL_HELP = "\b\nModels (--model):\n" + "\n".join(
+    f"  {name:<11} {spec.summary} ({spec.citation})" for name, spec in MODELS.items() if name != "protein-p")
+
+
+@main.command(epilog=MODEL_HELP)
+@click.argument("alignment", metavar="ALIGNMENT")
+@click.option("--output", "-o", required=True, metavar="FILE", help="Labelled TSV matrix to write ('-': stdout).")
+@model_options
+@click.pass_obj
+@guarded
+def distances(obj, alignment, output, model, gamma, gaps, freqs, saturated, alphabet, precision):
+    """Write the matrix of pairwise distances of ALIGNMENT (FASTA or NEXUS, '-' for stdin)."""
+    from ..distances import distance_matrix
+    from ..io.readers import read_alignment
+
+    check_output_not_input(output, alignment)
+    start = time.perf_counter()
+    aln = read_alignment(alignment, alphabet=alphabet)
+    check_fits(aln.n_taxa, precision=precision)
+    dm = distance_matrix(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated,
+                         dtype=PRECISIONS[precision], progress=not obj.quiet)
+    dm.write(output)
+    obj.say(distance_summary(aln, dm, time.perf_counter() - start))
+
+
+def read_input(path, alphabet, precision="double"):
+    """An alignment, or a labelled distance matrix (a TSV whose first cell is empty)."""
+    from ..io.files import read_text
+    from ..io.readers import read_alignment, read_distance_matrix
+
+    text = read_text(path)
+    source = "<stdin>" if path == "-" else path
+    if text.lstrip(" \n").startswith("\t"):  # the reader skips blank lines before the header
+        dm = read_distance_matrix(source, text=text)
+        if precision == "single":
+            dm = DistanceMatrix(dm.names, dm.values, validate=False, dtype=PRECISIONS[precision], info=dm.info)
+        return None, dm
+    return read_alignment(path, alphabet=alphabet, text=text), None
+
+
+def _check_outputs(input_path, output, save_replicates, report_path):
+    """Three outputs, no two the same file, none an input."""
+    from ..io.output import is_char_device
+
+    for other, flag in ((output, "--output"), (report_path, "--report")):
+        # realpath catches symbolic links (also to a file not made yet), samefile hard links
+        if save_replicates and other not in (None, "-") and (
+                os.path.realpath(other) == os.path.realpath(save_replicates)
+                or (os.path.exists(other) and os.path.exists(save_replicates)
+                    and os.path.samefile(other, save_replicates))):
+            raise InputError(f"--save-replicates and {flag} both name {save_replicates}; choose two different "
+                             "files")
+    check_output_not_input(output, input_path, save_replicates)
+    check_output_not_input(report_path, input_path, save_replicates)
+    check_output_not_input(save_replicates, input_path)
+    if (report_path and output != "-" and os.path.realpath(report_path) == os.path.realpath(output)
+            and not is_char_device(output)):
+        raise InputError(f"--report and --output both name {output}; choose two different files")
+
+
+@main.command(epilog=MODEL_HELP)
+@click.argument("input_path", metavar="INPUT")
+@click.option("--output", "-o", required=True, metavar="OUT", help="Tree file to write ('-': stdout).")
+@click.option("--method", type=click.Choice(JOINING_METHODS + LINKAGE_METHODS),
+              default="nj", show_default=True, help="Tree-building method.")
+@model_options
+@click.option("--negative", type=click.Choice(NEGATIVE_RULES), default="zero", show_default=True,
+              help="Negative NJ/BIONJ branch lengths: set to zero, or keep as computed.")
+@click.option("--root", "root_spec", default=None, metavar="midpoint|TAXON[,TAXON]",
+              help="Root the tree at its midpoint or on the branch to an outgroup.")
+@click.option("--replicates", "-b", type=click.IntRange(0, None), default=0, show_default=True,
+              help="Bootstrap replicates (0: no support).")
+@click.option("--seed", type=click.IntRange(0, None), default=None, help="Seed of the bootstrap (drawn if not given).")
+@click.option("--workers", type=click.IntRange(1, None), default=None,
+              help="Replicates run side by side on this machine (default: cores).")
+@click.option("--support", "measure", type=click.Choice(SUPPORT_MEASURES), default="fbp", show_default=True,
+              help="Felsenstein bootstrap proportion or transfer bootstrap expectation.")
+@click.option("--save-replicates", type=click.Path(dir_okay=False), default=None,
+              help="Append each replicate tree to this file, one Newick line each.")
+@click.option("--resume", is_flag=True, help="Continue --save-replicates FILE after an interruption.")
+@click.option("--scheduler", default=None, metavar="ADDRESS", help="Run replicates on this Dask scheduler.")
+@click.option("--report", "report_path", type=click.Path(dir_okay=False), default=None,
+              help="Also write a self-contained HTML report of the run.")
+@click.option("--binary", is_flag=True,
+              help="Write a fully resolved tree: polytomies (identical sequences, branches of length zero) "
+                   "resolved by branches of length zero without support, for software that needs binary trees.")
+@tree_output_options
+@click.pass_obj
+@guarded
+def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, alphabet, precision, negative,
+         root_spec,
+         replicates, seed, workers, measure, save_replicates, resume, scheduler, report_path, binary, fmt, digits,
+         support_digits):
+    """Build a tree from INPUT: an alignment (FASTA or NEXUS) or a labelled distance matrix (TSV)."""
+    from ..build import build_tree_with_info
+    from ..pipeline import split_identical, tree_from_alignment, zero_tolerance
+    from ..polytomies import collapse_zero_branches, resolve_polytomies
+
+    _check_outputs(input_path, output, save_replicates, report_path)
+    rooting = root_options(root_spec) if root_spec else None
+    start = time.perf_counter()
+    aln, dm = read_input(input_path, alphabet, precision)
+    # identical sequences enter the distances and the tree once: the matrix is that of the distinct ones
+    n_taxa = split_identical(aln, model)[0].n_taxa if aln is not None else len(dm.names)
+    check_fits(n_taxa, method=method, precision=precision,
+               workers=(workers or os.cpu_count() or 1) if replicates and scheduler is None else 0)
+    boot = None
+    if replicates:
+        if aln is None:
+            raise InputError("bootstrap support needs an alignment, not a distance matrix; give the alignment "
+                             "or drop --replicates", source=input_path)
+        from ..resampling import bootstrap
+
+        boot = bootstrap(aln, replicates, model=model, method=method, gamma=gamma, gaps=gaps, freqs=freqs,
+                         saturated=saturated, negative=negative, seed=seed, workers=workers, support=measure,
+                         save_replicates=save_replicates, resume=resume, scheduler=scheduler,
+                         progress=not obj.quiet, precision=precision)
+        result, info, dm = boot.tree, boot.info, boot.matrix
+    elif dm is None:
+        result, info, dm = tree_from_alignment(aln, model, method, gamma=gamma, gaps=gaps, freqs=freqs,
+                                               saturated=saturated, negative=negative,
+                                               dtype=PRECISIONS[precision], progress=not obj.quiet)
+    else:
+        result, info = build_tree_with_info(dm, method, negative, source=input_path)
+        info.update(dm.info)
+        result = collapse_zero_branches(result, zero_tolerance(dm.values.dtype))
+    info["negative"] = negative
+    # the run's warnings, worded once by the library, in this command line's terms for summary and report
+    info["warnings"] = shown_warnings(info, aln)
+    if rooting is not None:
+        from ..rooting import root_tree
+
+        result = root_tree(result, **rooting)
+    if binary:
+        result = resolve_polytomies(result)
+    write_tree(result, output, fmt, digits, support_digits)
+    seconds = time.perf_counter() - start
+    summary = tree_summary(aln, dm, info, boot, seconds, info["warnings"])
+    if report_path:
+        from ..report import write_report
+
+        write_report(report_path, alignment=aln, dm=dm, tree=result, info=info,
+                     command_line=" ".join(["cladewright"] + sys.argv[1:]), support_values=result.support)
+    where = "standard output" if output == "-" else output
+    obj.say(summary + f"\noutput    {where} ({output_format(output, fmt)})"
+            + (f", report {report_path}" if report_path else ""))

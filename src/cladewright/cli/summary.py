@@ -1,0 +1,69 @@
+"""The summaries the commands print on stderr after a run: what went in, how
+the run was set up, and its warnings, each worded once (by
+:func:`cladewright.pipeline.run_warnings`) and shown in the command line's terms."""
+
+from __future__ import annotations
+
+from ..errors import CladewrightWarning
+from ..pipeline import run_warnings
+from .app import as_options
+
+__all__ = ["distance_summary", "tree_summary", "identical_lines", "shown_warnings"]
+
+
+def shown_warnings(info, alignment=None):
+    """The run's warnings (``info["warnings"]``, else made from ``info``), in the command line's terms."""
+    found = info.get("warnings")
+    if found is None:
+        found = run_warnings(info, alignment)
+    return [CladewrightWarning(w.kind, as_options(w.message)) for w in found]
+
+
+def warning_lines(warnings):
+    return [f"warning   {w.message}" for w in warnings]
+
+
+def identical_lines(info):
+    """The summary's line on groups of identical sequences, when there are any."""
+    groups = info.get("identical_groups") or 0
+    if not groups:
+        return []
+    return [f"identical {groups} group(s) of identical sequences ({info['identical_sequences']} sequences), "
+            "each computed once and written as a polytomy"]
+
+
+def distance_summary(aln, dm, seconds):
+    info = dm.info
+    lines = [
+        f"taxa      {aln.n_taxa}",
+        f"sites     {aln.n_sites} ({aln.n_patterns} distinct patterns, {info['sites_used']} used, gaps {info['gaps']})",
+        f"model     {info['model']}" + (f" + gamma (alpha {info['gamma']:g})" if info["gamma"] else ""),
+    ]
+    lines.extend(warning_lines(shown_warnings(info, aln)))
+    lines.extend(identical_lines(info))
+    lines.append(f"time      {seconds:.2f} s")
+    return "\n".join(lines)
+
+
+def tree_summary(aln, dm, info, boot, seconds, warnings):
+    """``warnings``: the run's warnings as :func:`shown_warnings` gives them."""
+    lines = []
+    if aln is not None:
+        lines.append(f"taxa      {aln.n_taxa}")
+        lines.append(f"sites     {aln.n_sites} ({aln.n_patterns} distinct patterns, gaps {info.get('gaps')})")
+        model = info.get("model", "")
+        lines.append(f"model     {model}" + (f" + gamma (alpha {info['gamma']:g})" if info.get("gamma") else ""))
+    else:
+        lines.append(f"taxa      {len(dm.names)} (distance matrix)")
+    lines.append(f"method    {info['method']}")
+    if info.get("fit_name") and info.get("fit_value") is not None:
+        lines.append(f"fit       {info['fit_name']} {info['fit_value']:.4g}")
+    elif info.get("fit_name") or info.get("identical_groups"):
+        lines.append("fit       not defined (fewer than three distinct sequences, or every distance zero)")
+    lines.extend(identical_lines(info))
+    if boot is not None:
+        resumed = f", {info['resumed']} resumed" if info.get("resumed") else ""
+        lines.append(f"support   {boot.support.upper()}, {len(boot.replicates)} replicates{resumed}, seed {boot.seed}")
+    lines.extend(warning_lines(warnings))
+    lines.append(f"time      {seconds:.2f} s")
+    return "\n".join(lines)
