@@ -43,40 +43,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from .terms import neg_log, pair_proportions
+
 __all__ = ["p_distance", "jc69", "f81", "k2p", "f84", "t92", "tn93", "logdet", "paralinear"]
-
-
-def _neglog(y, gamma):
-    """-ln(1 - y), or its gamma form a [(1 - y)^(-1/a) - 1]; NaN where y >= 1.
-
-    The gamma form is a expm1(x) with x = -ln(1 - y) / a, which tends to
-    -ln(1 - y) as a grows (the plain form is its limit, Jin & Nei 1990). For
-    |x| < 1e-8 it is taken as -ln(1 - y) (1 + x/2 + x^2/6), the series of
-    expm1(x)/x, whose next term (x^3/24) is below double precision: this
-    also keeps full precision where x itself underflows (a near 1e300).
-
-    References
-    ----------
-    Jin, L. & Nei, M. (1990) Mol. Biol. Evol. 7:82–102.
-    """
-    y = np.where(y < 1, y, np.nan)
-    plain = -np.log1p(-y)
-    if gamma is None:
-        return plain
-    x = plain / gamma
-    small = np.abs(x) < 1e-8
-    return np.where(small, plain * (1.0 + x * (0.5 + x / 6.0)), gamma * np.expm1(x))
-
-
-def _proportions(c):
-    shared = c["shared"].astype(np.float64)
-    p = (shared - c["same"]) / shared
-    if "ag" not in c:
-        return shared, p, None, None, None
-    p1 = c["ag"] / shared
-    p2 = c["ct"] / shared
-    q = p - p1 - p2
-    return shared, p, p1, p2, q
 
 
 def _bases(pi):
@@ -86,34 +55,34 @@ def _bases(pi):
 
 def p_distance(c, pi=None, gamma=None):
     """Proportion of differing sites among the shared ones."""
-    return _proportions(c)[1]
+    return pair_proportions(c)[1]
 
 
 def _equal_input(p, b, gamma):
-    return b * _neglog(p / b, gamma)
+    return b * neg_log(p / b, gamma)
 
 
 def jc69(c, pi=None, gamma=None):
     """JC69 (Jukes & Cantor 1969); gamma form of Jin & Nei (1990)."""
-    return _equal_input(_proportions(c)[1], 0.75, gamma)
+    return _equal_input(pair_proportions(c)[1], 0.75, gamma)
 
 
 def f81(c, pi, gamma=None):
     """F81 (Felsenstein 1981): the equal-input correction with B = 1 - sum pi^2."""
     b = 1.0 - np.sum(np.asarray(pi, dtype=np.float64) ** 2, axis=-1)
-    return _equal_input(_proportions(c)[1], b, gamma)
+    return _equal_input(pair_proportions(c)[1], b, gamma)
 
 
 def k2p(c, pi=None, gamma=None):
     """K2P (Kimura 1980); gamma form of Jin & Nei (1990)."""
-    _, _, p1, p2, q = _proportions(c)
+    _, _, p1, p2, q = pair_proportions(c)
     ts = p1 + p2
-    return 0.5 * _neglog(2.0 * ts + q, gamma) + 0.25 * _neglog(2.0 * q, gamma)
+    return 0.5 * neg_log(2.0 * ts + q, gamma) + 0.25 * neg_log(2.0 * q, gamma)
 
 
 def f84(c, pi, gamma=None):
     """F84 (Felsenstein & Churchill 1996, the model of 1984)."""
-    _, _, p1, p2, q = _proportions(c)
+    _, _, p1, p2, q = pair_proportions(c)
     ts = p1 + p2
     a_, c_, g_, t_ = _bases(pi)
     pr, py = a_ + g_, c_ + t_
@@ -122,12 +91,12 @@ def f84(c, pi, gamma=None):
     big_c = pr * py
     y1 = ts / (2.0 * big_a) + (big_a - big_b) * q / (2.0 * big_a * big_c)
     y2 = q / (2.0 * big_c)
-    return 2.0 * big_a * _neglog(y1, None) - 2.0 * (big_a - big_b - big_c) * _neglog(y2, None)
+    return 2.0 * big_a * neg_log(y1, None) - 2.0 * (big_a - big_b - big_c) * neg_log(y2, None)
 
 
 def t92(c, pi, gamma=None):
     """T92 (Tamura 1992), theta the G+C content of ``pi``."""
-    _, _, p1, p2, q = _proportions(c)
+    _, _, p1, p2, q = pair_proportions(c)
     ts = p1 + p2
     _, c_, g_, _ = _bases(pi)
     theta = c_ + g_
@@ -135,21 +104,21 @@ def t92(c, pi, gamma=None):
     # h = 0 (no G+C, or only G+C) leaves no transitions possible (P = 0), and
     # h ln(1 - P/h - Q) -> 0 as h -> 0: the first term vanishes.
     with np.errstate(divide="ignore", invalid="ignore"):
-        first = np.where(h > 0, h * _neglog(ts / np.where(h > 0, h, 1.0) + q, None), 0.0)
-    return first + 0.5 * (1.0 - h) * _neglog(2.0 * q, None)
+        first = np.where(h > 0, h * neg_log(ts / np.where(h > 0, h, 1.0) + q, None), 0.0)
+    return first + 0.5 * (1.0 - h) * neg_log(2.0 * q, None)
 
 
 def tn93(c, pi, gamma=None):
     """TN93 (Tamura & Nei 1993), with its gamma form."""
-    _, _, p1, p2, q = _proportions(c)
+    _, _, p1, p2, q = pair_proportions(c)
     a_, c_, g_, t_ = _bases(pi)
     pr, py = a_ + g_, c_ + t_
     y1 = pr * p1 / (2.0 * a_ * g_) + q / (2.0 * pr)
     y2 = py * p2 / (2.0 * c_ * t_) + q / (2.0 * py)
     y3 = q / (2.0 * pr * py)
     k3 = pr * py - a_ * g_ * py / pr - c_ * t_ * pr / py
-    return (2.0 * a_ * g_ / pr * _neglog(y1, gamma) + 2.0 * c_ * t_ / py * _neglog(y2, gamma)
-            + 2.0 * k3 * _neglog(y3, gamma))
+    return (2.0 * a_ * g_ / pr * neg_log(y1, gamma) + 2.0 * c_ * t_ / py * neg_log(y2, gamma)
+            + 2.0 * k3 * neg_log(y3, gamma))
 
 
 def _logdet_parts(c):

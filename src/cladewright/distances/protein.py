@@ -1,5 +1,6 @@
 r"""Protein distance formulas on arrays of pair counts (shared signature
-``f(c, pi, gamma) -> d``, as in :mod:`cladewright.distances.nucleotide`).
+``f(c, pi, gamma) -> d``, as in :mod:`cladewright.distances.nucleotide`;
+shared terms in :mod:`cladewright.distances.terms`).
 
 With p the proportion of differing residues among the shared sites:
 
@@ -13,17 +14,17 @@ from __future__ import annotations
 
 import numpy as np
 
-from .nucleotide import _neglog, _proportions
+from .terms import neg_log, pair_proportions
 
 __all__ = ["poisson", "kimura_protein"]
 
 
 def poisson(c, pi=None, gamma=None):
     """Poisson correction (Zuckerkandl & Pauling 1965), with its gamma form."""
-    return _neglog(_proportions(c)[1], gamma)
+    return neg_log(pair_proportions(c)[1], gamma)
 
 
 def kimura_protein(c, pi=None, gamma=None):
     """Kimura's (1983) approximation to the PAM correction."""
-    p = _proportions(c)[1]
-    return _neglog(p + 0.2 * p * p, None)
+    p = pair_proportions(c)[1]
+    return neg_log(p + 0.2 * p * p, None)

@@ -62,7 +62,7 @@ def _visit(D, born, cand, m, c, rmax, lowest, best, live, r, node, slot, lab, R,
     and rounding is monotone, a bound never exceeds the Q it stands for, so
     the pruning is exact without any tolerance.
     """
-    head, hmin, hnode, after = L[2], L[3], L[4], L[5]
+    head, hmin, hnode, after = L.head, L.hmin, L.hnode, L.after
     G = head.shape[1]
     bq, bi, bj = best
     ns = 0
@@ -107,7 +107,7 @@ def _search(D, born, live, r, node, slot, lab, R, L, rmax, rowlb, cand, slow):
     ``rmax`` holds the largest R of each class (−inf for an empty class);
     ``rowlb``, ``cand`` and ``slow`` are work space (n, n G and n G).
     """
-    head, hmin = L[2], L[3]
+    head, hmin = L.head, L.hmin
     n, G = head.shape
     c = float(r - 2)
     top = rmax.max()
@@ -281,8 +281,8 @@ def nj_kernel(D, bionj, K, G):
         size[lab[i]] -= 1
         size[lab[j]] -= 1
         cnt[:] = size
-        Lvi = L[0][i]
-        Lxi = L[1][i]
+        Lvi = L.values[i]
+        Lxi = L.records[i]
         rmax[:] = -np.inf
         # Bring rows i and j up to date first (see dist), in a loop of
         # independent loads that the processor can overlap; choosing the

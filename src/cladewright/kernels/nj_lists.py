@@ -7,7 +7,8 @@ first unread entry, the length, whether the list is the whole class, and the
 node ids. Keeping a list's bookkeeping beside its node ids means a pruned
 visit to a row touches one line of each rather than one per field.
 
-``L`` is the tuple (values, records, head, hmin, hnode, after). head[s, g]
+``L`` is a :class:`RowLists` (values, records, head, hmin, hnode, after),
+a named tuple that numba compiles to plain field loads. head[s, g]
 is a lower bound of every unread entry of list g of row s: the value of the
 first, whose node is hnode[s, g] (−1 when the list is read to its end), and
 after[s, g] the same for the entries behind it. The search mostly needs no
@@ -25,18 +26,27 @@ Simonsen, M., Mailund, T. & Pedersen, C. N. S. (2008) Rapid neighbour-joining.
 WABI 2008, LNCS 5251.
 """
 
+from collections import namedtuple
+
 import numba as nb
 import numpy as np
 
 START, LEN, FULL, NODE = 0, 1, 2, 3   # fields of a list record; node ids from NODE on
 
+#: The per-row lists of the search (see the module doc): ``values`` (n, G, K)
+#: float64 and ``records`` (n, G, NODE + K) int32 hold the lists;
+#: ``head``, ``hnode`` and ``after`` (n, G) cache the first unread entry of
+#: each list, its node and the bound behind it; ``hmin`` (n,) the least head
+#: of each row.
+RowLists = namedtuple("RowLists", ["values", "records", "head", "hmin", "hnode", "after"])
+
 
 @nb.njit(cache=True)
 def new_lists(n, G, K):
     """Empty lists for n rows, G classes and K entries (see module doc)."""
-    return (np.empty((n, G, K), np.float64), np.zeros((n, G, NODE + K), np.int32),
-            np.full((n, G), np.inf), np.full(n, np.inf), np.full((n, G), -1, np.int32),
-            np.full((n, G), np.inf))
+    return RowLists(np.empty((n, G, K), np.float64), np.zeros((n, G, NODE + K), np.int32),
+                    np.full((n, G), np.inf), np.full(n, np.inf), np.full((n, G), -1, np.int32),
+                    np.full((n, G), np.inf))
 
 
 @nb.njit(cache=True, inline="always")
@@ -44,7 +54,7 @@ def set_start(L, s, g, p):
     """Make entry p the first unread one of list g of row s, and cache its
     value and node and the bound behind it. Entries left out of a list are
     at least its last value (inf once the list is the whole class)."""
-    Lv, Lx, head, hmin, hnode, after = L
+    Lv, Lx, head, hnode, after = L.values, L.records, L.head, L.hnode, L.after
     m = Lx[s, g, LEN]
     rest = np.inf if Lx[s, g, FULL] or m == 0 else Lv[s, g, m - 1]
     Lx[s, g, START] = p
@@ -96,7 +106,7 @@ def insert(Lv, Lx, g, v, nd, thr):
 @nb.njit(cache=True, inline="always")
 def begin_row(L, s, thr):
     """Empty every list of row s before its entries are offered."""
-    L[1][s, :, LEN] = 0
+    L.records[s, :, LEN] = 0
     thr[:] = np.inf
 
 
@@ -104,13 +114,13 @@ def begin_row(L, s, thr):
 def end_row(L, s, cnt):
     """Close the lists of row s once all its entries were offered (cnt[g]
     of class g): whatever was left out is at least the list's last value."""
-    K = L[0].shape[2]
+    K = L.values.shape[2]
     hm = np.inf
-    for g in range(L[0].shape[1]):
-        L[1][s, g, FULL] = cnt[g] <= K
+    for g in range(L.values.shape[1]):
+        L.records[s, g, FULL] = cnt[g] <= K
         set_start(L, s, g, 0)
-        hm = min(hm, L[2][s, g])
-    L[3][s] = hm
+        hm = min(hm, L.head[s, g])
+    L.hmin[s] = hm
 
 
 @nb.njit(cache=True)
@@ -120,8 +130,8 @@ def fill_row(D, s, live, r, node, lab, L, cnt, thr):
     and thr work space of G."""
     begin_row(L, s, thr)
     row = D[s]
-    Lv = L[0][s]
-    Lx = L[1][s]
+    Lv = L.values[s]
+    Lx = L.records[s]
     for b in range(r):
         k = live[b]
         if k != s:
@@ -135,7 +145,7 @@ def fill_row(D, s, live, r, node, lab, L, cnt, thr):
 def skip_joined(L, s, g, slot):
     """Move the start of list g of row s past entries of joined clusters
     (slot −1) and return it."""
-    Lx = L[1]
+    Lx = L.records
     p = Lx[s, g, START]
     while p < Lx[s, g, LEN] and slot[Lx[s, g, NODE + p]] < 0:
         p += 1
@@ -147,8 +157,8 @@ def skip_joined(L, s, g, slot):
 def fill_class(D, born, s, g, live, r, node, lab, L):
     """Rebuild the class-g list of row s from the matrix (head[s, g] is
     updated; hmin[s] is left to the caller)."""
-    Lv = L[0][s]
-    Lx = L[1][s]
+    Lv = L.values[s]
+    Lx = L.records[s]
     K = Lv.shape[1]
     Lx[g, LEN] = 0
     cnt = np.zeros(g + 1, np.int64)
@@ -179,7 +189,7 @@ def read_list(D, born, s, g, c, sr, best, live, r, node, slot, lab, R, L):
     """Read list g of row s from its first unread entry while the bound
     c d − sr can reach ``best``, refilling it from the matrix when it runs
     out. Returns the updated best and whether row s was read in full."""
-    Lv, Lx = L[0], L[1]
+    Lv, Lx = L.values, L.records
     bq, bi, bj = best
     Rs = R[s]
     refilled = False
