@@ -153,7 +153,7 @@ def _dendropy_tree(n, method):
 
 def _ours_bootstrap(n, replicates, workers):
     from cladewright.alignment import Alignment
-    from cladewright.support.resample import bootstrap
+    from cladewright.resampling import bootstrap
 
     aln = Alignment([f"s{i}" for i in range(n)], states_for(n), "dna")
     t = time.perf_counter()

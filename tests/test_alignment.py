@@ -10,7 +10,7 @@ import pytest
 from Bio import AlignIO, SeqIO
 from click.testing import CliRunner
 
-from cladewright.alignment import read_alignment
+from cladewright.io.readers import read_alignment
 from cladewright.cli import main
 from cladewright.errors import InputError
 
@@ -151,7 +151,7 @@ def test_cli_refuses_output_equal_to_input(tmp_path):
 
 
 def test_cli_writes_matrix_that_reads_back(tmp_path):
-    from cladewright.matrix import read_distance_matrix
+    from cladewright.io.readers import read_distance_matrix
 
     out = tmp_path / "m.tsv"
     result = CliRunner().invoke(main, ["distances", str(FASTA), "-o", str(out), "--model", "tn93"])

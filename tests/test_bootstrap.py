@@ -17,7 +17,7 @@ from click.testing import CliRunner
 from cladewright.cli import main
 from cladewright.errors import InputError
 from cladewright.io import read_trees
-from cladewright.support.resample import bootstrap, replicate_weights
+from cladewright.resampling import bootstrap, replicate_weights
 
 from conftest import make_alignment
 

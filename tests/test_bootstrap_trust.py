@@ -18,11 +18,11 @@ import pytest
 from click.testing import CliRunner
 
 import cladewright.memory
-from cladewright.alignment import read_alignment
+from cladewright.io.readers import read_alignment
 from cladewright.cli import main
 from cladewright.errors import InputError
 from cladewright.memory import replicate_tree_bytes
-from cladewright.support.resample import bootstrap, replicate_weights
+from cladewright.resampling import bootstrap, replicate_weights
 
 from conftest import simulate_dna
 

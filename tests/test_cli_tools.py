@@ -17,7 +17,6 @@ from dendropy.calculate import treecompare
 from scipy.cluster.hierarchy import fcluster, linkage
 from scipy.spatial.distance import squareform
 
-import cladewright.cli_tools  # noqa: F401 - registers the commands on main
 from cladewright.build import build_tree
 from cladewright.cli import main
 from cladewright.io import read_trees

@@ -15,7 +15,7 @@ import pytest
 
 from cladewright.draw import LOW, render_tree
 from cladewright.errors import InputError
-from cladewright.io.newick import parse_newick
+from cladewright.io.readers import parse_newick
 from cladewright.textdraw import text_tree
 from cladewright.tree import Tree
 

@@ -13,10 +13,9 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner
 
-from cladewright.alignment import read_alignment
 from cladewright.cli import main
-from cladewright.io.newick import parse_newick
-from cladewright.support.resample import bootstrap
+from cladewright.io.readers import parse_newick, read_alignment
+from cladewright.resampling import bootstrap
 
 EXAMPLE = Path(__file__).resolve().parent.parent / "example_alignments" / "glass_snails_coi.fasta"
 

@@ -16,13 +16,14 @@ from pathlib import Path
 import numpy as np
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from cladewright.alignment import read_alignment
 from cladewright.errors import InputError
 from cladewright.io import read_trees
-from cladewright.io.alignment_formats import parse_fasta, parse_nexus_matrix
-from cladewright.io.newick import format_newick, parse_newick
-from cladewright.io.nexus import format_nexus, parse_nexus_trees
-from cladewright.matrix import DistanceMatrix, read_distance_matrix
+from cladewright.io.alignment_formats import parse_fasta
+from cladewright.io.newick_writer import format_newick
+from cladewright.io.nexus import format_nexus
+from cladewright.io.nexus_alignment import parse_nexus_matrix
+from cladewright.io.readers import parse_newick, parse_nexus_trees, read_alignment, read_distance_matrix
+from cladewright.matrix import DistanceMatrix
 from cladewright.tree import Tree
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -19,11 +19,10 @@ import numpy as np
 import pytest
 from click.testing import CliRunner
 
-import cladewright.cli_tools  # noqa: F401 - registers the tree tools on main
 from cladewright.cli import main
 from cladewright.draw import LOW
 from cladewright.errors import InputError
-from cladewright.io.newick import parse_newick
+from cladewright.io.readers import parse_newick
 from cladewright.matrix import DistanceMatrix
 from cladewright.report import write_report
 from cladewright.support import apply_support, majority_consensus

@@ -24,7 +24,7 @@ from skbio.alignment import align_dists
 
 from cladewright import Alignment, DistanceMatrix, InputError, build_tree, build_tree_with_info, distance_matrix
 from cladewright.cli import main
-from cladewright.matrix import read_distance_matrix
+from cladewright.io.readers import read_distance_matrix
 
 from conftest import make_alignment, simulate_dna
 

@@ -19,8 +19,9 @@ from hypothesis import given, settings, strategies as st, HealthCheck
 
 from cladewright.errors import InputError
 from cladewright.io import read_trees
-from cladewright.io.newick import format_newick, parse_newick
-from cladewright.io.nexus import format_nexus, parse_nexus_trees
+from cladewright.io.newick_writer import format_newick
+from cladewright.io.nexus import format_nexus
+from cladewright.io.readers import parse_newick, parse_nexus_trees
 from cladewright.tree import Tree
 
 AWKWARD = ["plain", "with space", "it's", "br(a)ck[e]t", "co:lon", "com,ma", "Übersee ñ 東京",

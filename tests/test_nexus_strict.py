@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from click.testing import CliRunner
 
-from cladewright.alignment import read_alignment
+from cladewright.io.readers import read_alignment
 from cladewright.cli import main
 from cladewright.errors import InputError
 

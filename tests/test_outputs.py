@@ -28,10 +28,11 @@ import pytest
 from click.testing import CliRunner
 
 from cladewright import read_trees
-from cladewright.cli import check_output_not_input, main
+from cladewright.cli import main
+from cladewright.cli.app import check_output_not_input
 from cladewright.errors import InputError
-from cladewright.io.files import atomic_output, write_text_atomic
-from cladewright.matrix import read_distance_matrix
+from cladewright.io.output import atomic_output, write_text_atomic
+from cladewright.io.readers import read_distance_matrix
 
 EXAMPLE = Path(__file__).resolve().parent.parent / "example_alignments" / "glass_snails_coi.fasta"
 TEXT = "(a:0.1,b:0.2,(c:0.3,d:0.4):0.05);\n"

@@ -56,7 +56,8 @@ def test_estimate_counts_the_matrices():
 def test_a_run_that_cannot_fit_stops_with_the_option_that_would():
     n = 30_000
     single = estimate_bytes(n, method="nj", precision="single")
-    with pytest.raises(InputError, match="--precision single would fit"):
+    # the library names its parameter; the command line shows it as --precision single (tests/test_run_warnings.py)
+    with pytest.raises(InputError, match='precision="single" would fit'):
         check_fits(n, method="nj", available=single + 1)
     with pytest.raises(InputError, match="more memory or fewer taxa"):
         check_fits(n, method="nj", available=2**20)

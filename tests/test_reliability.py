@@ -25,14 +25,13 @@ import pytest
 from click.testing import CliRunner
 
 from cladewright import build_tree, distance_matrix
-from cladewright.alignment import read_alignment
 from cladewright.cli import main
 from cladewright.errors import InputError, SaturationError
 from cladewright.io import read_trees
-from cladewright.io.files import atomic_output, read_text
-from cladewright.io.newick import parse_newick
-from cladewright.io.nexus import parse_nexus_trees
-from cladewright.matrix import DistanceMatrix, read_distance_matrix
+from cladewright.io.files import read_text
+from cladewright.io.output import atomic_output
+from cladewright.io.readers import parse_newick, parse_nexus_trees, read_alignment, read_distance_matrix
+from cladewright.matrix import DistanceMatrix
 from cladewright.tree import Tree
 
 from conftest import make_alignment
@@ -480,13 +479,13 @@ def test_write_errors_become_input_errors(tmp_path, monkeypatch, code, fragment)
 def test_unwritable_folder_and_other_os_errors(tmp_path, monkeypatch):
     # source: common practice: a fixable error (permissions) becomes an InputError, an unexpected one
     # (EIO) is not hidden; either way no temporary file is left
-    import cladewright.io.files as files
+    import cladewright.io.output as output
 
     def denied(**_kw):
         raise PermissionError(errno.EACCES, "Permission denied")
 
     with monkeypatch.context() as m:
-        m.setattr(files.tempfile, "mkstemp", denied)
+        m.setattr(output.tempfile, "mkstemp", denied)
         with pytest.raises(InputError, match="permission denied.*check the permissions"):
             with atomic_output(tmp_path / "x"):
                 pass
@@ -521,7 +520,7 @@ def test_outputs_get_ordinary_permissions(tmp_path):
 def test_full_disk_during_a_bootstrap_keeps_a_resumable_replicate_file(tmp_path, monkeypatch):
     # source: common practice: a replicate file is flushed a whole line at a time, so a full disk leaves
     # complete lines (and at most one torn line) that --resume continues (docs/support.md)
-    from cladewright.support import resample
+    from cladewright.resampling import replicate_file
 
     example = Path(__file__).resolve().parent.parent / "example_alignments" / "glass_snails_coi.fasta"
     args = ["tree", example, "-b", 60, "--seed", 5, "--workers", 1]
@@ -547,7 +546,7 @@ def test_full_disk_during_a_bootstrap_keeps_a_resumable_replicate_file(tmp_path,
                 def __getattr__(self, name):
                     return getattr(self.fh, name)
 
-            monkeypatch.setattr(resample, "open", Filling, raising=False)
+            monkeypatch.setattr(replicate_file, "open", Filling, raising=False)
         result = _run(args + ["-o", out, "--save-replicates", reps])
         _assert_one_line_error(result, "disk is full")
         assert "--resume" in result.stderr and not out.exists()

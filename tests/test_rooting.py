@@ -188,12 +188,20 @@ def test_outgroup_single_taxon_and_bad_names():
 
 
 def test_root_tree_spec():
-    # worked by hand, as in the two tests above
+    # worked by hand, as in the two tests above; the command line reads its --root text into root_tree's
+    # arguments (cladewright.cli.app.root_options), the library takes them explicitly
+    from cladewright.cli.app import root_options
+
     t = Tree([4, 4, 5, 5, 5, -1], [1.0, 1.0, 1.0, 1.0, 2.0, np.nan], list("abcd"))
-    assert root_tree(t, "c,d").to_newick() == "((a:1.0,b:1.0):1.0,(c:1.0,d:1.0):1.0);\n"
-    assert root_tree(t, "Midpoint").to_newick() == midpoint_root(t).to_newick()
+    assert root_tree(t, **root_options("c,d")).to_newick() == "((a:1.0,b:1.0):1.0,(c:1.0,d:1.0):1.0);\n"
+    assert root_tree(t, **root_options("Midpoint")).to_newick() == midpoint_root(t).to_newick()
     with pytest.raises(InputError):
-        root_tree(t, "")
+        root_options("")
+    assert root_tree(t, outgroup=["c", "d"]).to_newick() == "((a:1.0,b:1.0):1.0,(c:1.0,d:1.0):1.0);\n"
+    assert root_tree(t, midpoint=True).to_newick() == midpoint_root(t).to_newick()
+    for wrong in ({}, {"midpoint": True, "outgroup": ["c"]}, {"outgroup": "c,d"}):
+        with pytest.raises(InputError):
+            root_tree(t, **wrong)
 
 
 def test_underscore_and_blank_are_the_same_name():

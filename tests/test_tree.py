@@ -15,7 +15,7 @@ import pytest
 from dendropy.simulate import treesim
 
 from cladewright.io import read_trees
-from cladewright.io.newick import parse_newick
+from cladewright.io.readers import parse_newick
 from cladewright.tree import Tree
 
 from conftest import random_join_tree
