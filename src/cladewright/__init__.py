@@ -1,7 +1,9 @@
 """cladewright: distance-based phylogenetic trees with bootstrap support.
 
 The pipeline runs one way: alignment -> pair counts -> DistanceMatrix -> Tree
--> support -> Newick / NEXUS.
+-> support -> Newick / NEXUS / figure. Every name a user needs is here, grouped
+by stage; the modules behind them are listed in docs/architecture.md (those
+whose docstring starts "Internal", and ``_kernels``, may change freely).
 
 >>> import cladewright as cw
 >>> aln = cw.read_alignment("example_alignments/glass_snails_coi.fasta")
@@ -14,24 +16,66 @@ The pipeline runs one way: alignment -> pair counts -> DistanceMatrix -> Tree
 
 __version__ = "0.1.0"
 
-from .alignment import Alignment, distinct_sequences, identical_groups
-from .build import METHODS, build_tree, build_tree_with_info, fit_statistic
-from .distances import MODELS, distance_matrix
-from .errors import CladewrightError, InputError, SaturationError
-from .io.readers import read_alignment, read_distance_matrix, read_trees
+# Reading: files (FASTA, NEXUS, Newick, labelled TSV; gzip; "-" for stdin) -> the nouns.
+from .io.readers import parse_newick, read_alignment, read_distance_matrix, read_trees
+
+# The three nouns that carry the data.
+from .alignment import Alignment
 from .matrix import DistanceMatrix
-from .support import (apply_support, branch_score, fbp_support, majority_consensus, robinson_foulds,
-                      tbe_support)
-from .resampling import BootstrapResult, bootstrap
-from .pipeline import tree_from_alignment
-from .polytomies import attach_identical, collapse_zero_branches, resolve_polytomies
 from .tree import Tree
 
+# Distances: the model registry and the one entry point.
+from .distances import MODELS, distance_matrix
+
+# Identical sequences: computed once, put back as polytomies.
+from .alignment import distinct_sequences, identical_groups
+
+# Trees: building, fit to the distances, the whole alignment-to-tree path, polytomies.
+from .build import METHODS, build_tree, build_tree_with_info, fit_statistic
+from .pipeline import tree_from_alignment
+from .polytomies import attach_identical, collapse_zero_branches, resolve_polytomies
+
+# Rooting: midpoint or outgroup.
+from .rooting import midpoint_root, outgroup_root, root_tree
+
+# Clusters: groups of taxa within a path-length threshold.
+from .clusters import clade_diameters, clusters_within
+
+# Support: the bootstrap, support measures, consensus and tree comparison.
+from .resampling import BootstrapResult, bootstrap
+from .support import (apply_support, branch_score, fbp_support, majority_consensus, robinson_foulds,
+                      tbe_support)
+
+# Figures and reports: a figure file (SVG, PNG, PDF) or Figure, a text drawing, the HTML run report.
+from .draw import render_tree, tree_figure
+from .report import write_report
+from .textdraw import text_tree
+
+# Errors and warnings.
+from .errors import CladewrightError, CladewrightWarning, InputError, SaturationError
+
 __all__ = [
-    "Alignment", "read_alignment", "MODELS", "distance_matrix", "DistanceMatrix", "read_distance_matrix",
-    "METHODS", "build_tree", "build_tree_with_info", "fit_statistic", "Tree", "read_trees",
+    # reading
+    "read_alignment", "read_trees", "read_distance_matrix", "parse_newick",
+    # nouns
+    "Alignment", "DistanceMatrix", "Tree",
+    # distances
+    "distance_matrix", "MODELS",
+    # identical sequences
+    "identical_groups", "distinct_sequences",
+    # trees
+    "build_tree", "build_tree_with_info", "METHODS", "fit_statistic", "tree_from_alignment",
+    "collapse_zero_branches", "resolve_polytomies", "attach_identical",
+    # rooting
+    "midpoint_root", "outgroup_root", "root_tree",
+    # clusters
+    "clusters_within", "clade_diameters",
+    # support
     "bootstrap", "BootstrapResult", "fbp_support", "tbe_support", "apply_support", "majority_consensus",
-    "robinson_foulds", "branch_score", "CladewrightError", "InputError", "SaturationError",
-    "identical_groups", "distinct_sequences", "tree_from_alignment", "attach_identical", "collapse_zero_branches",
-    "resolve_polytomies",
+    "robinson_foulds", "branch_score",
+    # figures and reports
+    "render_tree", "tree_figure", "text_tree", "write_report",
+    # errors and warnings
+    "CladewrightError", "InputError", "SaturationError", "CladewrightWarning",
+    "__version__",
 ]

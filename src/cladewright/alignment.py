@@ -12,9 +12,13 @@ treated as missing for distances (common practice).
 
 from __future__ import annotations
 
-import numpy as np
+from collections.abc import Callable, Iterable, Sequence
+from typing import Any, cast
 
-from .choices import ALPHABETS
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from .choices import ALPHABETS, Alphabet
 from .errors import InputError
 
 __all__ = ["Alignment", "ALPHABETS", "encode", "detect_alphabet", "identical_groups", "distinct_sequences"]
@@ -31,7 +35,7 @@ GAPS = "-."
 _PROTEIN_ONLY = set("EFIJLOPQZ*")
 
 
-def _code_table(alphabet):
+def _code_table(alphabet: str) -> NDArray[np.uint8]:
     """A 256-entry lookup from byte to state code; 255 marks a byte outside the alphabet."""
     states = DNA_STATES if alphabet == "dna" else PROTEIN_STATES
     ambiguous = DNA_AMBIGUOUS if alphabet == "dna" else PROTEIN_AMBIGUOUS
@@ -73,14 +77,24 @@ class Alignment:
         are those of the full alignment.
     """
 
-    def __init__(self, names, states, alphabet, *, source="<alignment>", multiplicity=None):
+    names: tuple[str, ...]
+    alphabet: Alphabet
+    states: NDArray[np.uint8]
+    patterns: NDArray[np.uint8]
+    weights: NDArray[np.int64]
+    site_pattern: NDArray[np.int64]
+    source: str
+    multiplicity: NDArray[np.int64]
+
+    def __init__(self, names: Iterable[str], states: ArrayLike, alphabet: str, *, source: str = "<alignment>",
+                 multiplicity: ArrayLike | None = None) -> None:
         self.names = tuple(names)
         _check_input(self.names, states, alphabet, source)
         # A copy of the caller's array, read-only: changing it later must not
         # change an alignment whose patterns were already counted.
         self.states = np.array(states, dtype=np.uint8, order="C", copy=True)
         self.states.flags.writeable = False
-        self.alphabet = alphabet
+        self.alphabet = cast(Alphabet, alphabet)  # checked above
         self.source = source
         self.patterns, self.weights, self.site_pattern = _site_patterns(self.states)
         n = self.states.shape[0]
@@ -90,27 +104,30 @@ class Alignment:
             raise InputError(f"multiplicity must hold {n} whole numbers >= 1, one per sequence")
 
     @property
-    def n_states(self):
+    def n_states(self) -> int:
         """Number of unambiguous states: 4 for DNA, 20 for protein."""
         return len(DNA_STATES) if self.alphabet == "dna" else len(PROTEIN_STATES)
 
     @property
-    def n_taxa(self):
+    def n_taxa(self) -> int:
+        """Number of sequences ``n``."""
         return self.states.shape[0]
 
     @property
-    def n_sites(self):
+    def n_sites(self) -> int:
+        """Number of sites ``L``."""
         return self.states.shape[1]
 
     @property
-    def n_patterns(self):
+    def n_patterns(self) -> int:
+        """Number of distinct site patterns ``S``."""
         return self.patterns.shape[1]
 
-    def unambiguous(self):
+    def unambiguous(self) -> NDArray[np.bool_]:
         """Boolean mask (n, L) of unambiguous states."""
         return self.states < self.n_states
 
-    def summary(self):
+    def summary(self) -> dict[str, Any]:
         """Counts for the run summary and report."""
         k = self.n_states
         total = self.states.size or 1
@@ -125,11 +142,11 @@ class Alignment:
             "least_data": (self.names[int(np.argmin(per_seq))], float(per_seq.min())) if self.n_taxa else None,
         }
 
-    def __repr__(self):
+    def __repr__(self) -> str:
         return f"Alignment({self.n_taxa} sequences x {self.n_sites} sites, {self.alphabet})"
 
 
-def _check_input(names, states, alphabet, source):
+def _check_input(names: tuple[str, ...], states: ArrayLike, alphabet: object, source: str) -> None:
     """Refuse what ``Alignment(...)`` would misread: an alphabet other than
     dna or protein (the state count would fall back to protein's), or codes
     outside 0..k+1 (a cast to uint8 would wrap 256 to 0)."""
@@ -154,7 +171,7 @@ def _check_input(names, states, alphabet, source):
         seen.add(name)
 
 
-def _site_patterns(states):
+def _site_patterns(states: NDArray[np.uint8]) -> tuple[NDArray[np.uint8], NDArray[np.int64], NDArray[np.int64]]:
     """Distinct columns, their counts and each site's pattern index (sorted, deterministic)."""
     n, length = states.shape
     if length == 0:
@@ -166,7 +183,7 @@ def _site_patterns(states):
     return patterns, counts.astype(np.int64), inverse.reshape(-1).astype(np.int64)
 
 
-def identical_groups(alignment):
+def identical_groups(alignment: Alignment) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
     """The groups of identical sequences of an alignment.
 
     Two sequences are identical when they hold the same state code at every
@@ -210,7 +227,7 @@ def identical_groups(alignment):
     return first[order].astype(np.int64), rank[inverse].astype(np.int64)
 
 
-def distinct_sequences(alignment):
+def distinct_sequences(alignment: Alignment) -> tuple[Alignment, NDArray[np.int64]]:
     """The alignment with each group of identical sequences entered once.
 
     Parameters
@@ -242,15 +259,16 @@ def distinct_sequences(alignment):
     return distinct, group
 
 
-def detect_alphabet(sequences):
+def detect_alphabet(sequences: Iterable[str]) -> Alphabet:
     """'protein' if any letter is no nucleotide code (NC-IUB 1985), else 'dna'."""
-    seen = set()
+    seen: set[str] = set()
     for seq in sequences:
         seen.update(seq.upper())
     return "protein" if seen & _PROTEIN_ONLY else "dna"
 
 
-def encode(names, sequences, alphabet, source, positions=None):
+def encode(names: Sequence[str], sequences: Sequence[str], alphabet: str, source: str,
+           positions: Sequence[Callable[[int], str]] | None = None) -> NDArray[np.uint8]:
     """Encode sequences as states, with errors naming the record and position.
 
     ``positions`` gives, per sequence, a function from column to a

@@ -15,43 +15,63 @@ Saitou & Nei (1987) Mol. Biol. Evol. 4:406-425 (neighbour joining); Gascuel
 
 from __future__ import annotations
 
+from typing import Final, Literal, Union, get_args
+
 import numpy as np
 
 __all__ = ["LINKAGE_METHODS", "JOINING_METHODS", "METHODS", "NEGATIVE_RULES", "PRECISIONS", "ALPHABETS",
            "GAP_MODES", "FREQ_MODES", "SATURATED_MODES", "SUPPORT_MEASURES", "TREE_FORMATS", "CLUSTER_ROOTS",
-           "WARNING_KINDS"]
+           "WARNING_KINDS",
+           "LinkageMethod", "JoiningMethod", "Method", "NegativeRule", "Precision", "Alphabet", "GapMode",
+           "FreqMode", "SaturatedMode", "SupportMeasure", "TreeFormat", "ClusterRoot", "WarningKind"]
+
+# Each vocabulary is a typing.Literal (PEP 586) for annotations, and the tuple
+# of its names is read from it, so the two cannot drift apart.
 
 #: Tree methods of the Lance-Williams family: a rooted, ultrametric tree.
-LINKAGE_METHODS = ("upgma", "wpgma", "single", "complete")
+LinkageMethod = Literal["upgma", "wpgma", "single", "complete"]
+LINKAGE_METHODS: Final[tuple[LinkageMethod, ...]] = get_args(LinkageMethod)
 #: Tree methods that join neighbours: an unrooted tree with a basal trifurcation.
-JOINING_METHODS = ("nj", "bionj")
+JoiningMethod = Literal["nj", "bionj"]
+JOINING_METHODS: Final[tuple[JoiningMethod, ...]] = get_args(JoiningMethod)
 #: Every tree method (build_tree's ``method``).
-METHODS = LINKAGE_METHODS + JOINING_METHODS
+Method = Union[LinkageMethod, JoiningMethod]
+METHODS: Final[tuple[Method, ...]] = LINKAGE_METHODS + JOINING_METHODS
 
 #: What becomes of a negative branch length (``negative``): set to zero, or kept as computed.
-NEGATIVE_RULES = ("zero", "keep")
+NegativeRule = Literal["zero", "keep"]
+NEGATIVE_RULES: Final[tuple[NegativeRule, ...]] = get_args(NegativeRule)
 
 #: Floating-point precision of a distance matrix (``precision``), name -> numpy dtype.
-PRECISIONS = {"double": np.float64, "single": np.float32}
+Precision = Literal["double", "single"]
+PRECISIONS: Final[dict[str, type[np.floating]]] = {"double": np.float64, "single": np.float32}
 
 #: Sequence alphabets (``alphabet``).
-ALPHABETS = ("dna", "protein")
+Alphabet = Literal["dna", "protein"]
+ALPHABETS: Final[tuple[Alphabet, ...]] = get_args(Alphabet)
 
 #: Sites a pair uses (``gaps``): those both sequences have, or those every sequence has.
-GAP_MODES = ("pairwise", "complete")
+GapMode = Literal["pairwise", "complete"]
+GAP_MODES: Final[tuple[GapMode, ...]] = get_args(GapMode)
 #: Where base frequencies come from (``freqs``): the whole alignment, or each pair.
-FREQ_MODES = ("alignment", "pair")
+FreqMode = Literal["alignment", "pair"]
+FREQ_MODES: Final[tuple[FreqMode, ...]] = get_args(FreqMode)
 #: What an undefined (saturated) distance does (``saturated``): stop the run, or take a cap.
-SATURATED_MODES = ("error", "cap")
+SaturatedMode = Literal["error", "cap"]
+SATURATED_MODES: Final[tuple[SaturatedMode, ...]] = get_args(SaturatedMode)
 
 #: Support measures (``support``): Felsenstein bootstrap proportion, transfer bootstrap expectation.
-SUPPORT_MEASURES = ("fbp", "tbe")
+SupportMeasure = Literal["fbp", "tbe"]
+SUPPORT_MEASURES: Final[tuple[SupportMeasure, ...]] = get_args(SupportMeasure)
 
 #: Tree file formats (``format`` of Tree.write).
-TREE_FORMATS = ("newick", "nexus")
+TreeFormat = Literal["newick", "nexus"]
+TREE_FORMATS: Final[tuple[TreeFormat, ...]] = get_args(TreeFormat)
 
 #: Which root groups of taxa hang from (``root`` of clusters_within).
-CLUSTER_ROOTS = ("auto", "stored", "midpoint")
+ClusterRoot = Literal["auto", "stored", "midpoint"]
+CLUSTER_ROOTS: Final[tuple[ClusterRoot, ...]] = get_args(ClusterRoot)
 
 #: Kinds of the warnings a run reports (:class:`cladewright.errors.CladewrightWarning`).
-WARNING_KINDS = ("saturated", "replicates_capped", "negative_lengths", "little_data")
+WarningKind = Literal["saturated", "replicates_capped", "negative_lengths", "little_data"]
+WARNING_KINDS: Final[tuple[WarningKind, ...]] = get_args(WarningKind)

@@ -34,12 +34,17 @@ level; cophenetic values).
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
 import numpy as np
+from numpy.typing import NDArray
 
 from .choices import CLUSTER_ROOTS
 from .errors import InputError
 from .paths import longest_paths
+
+if TYPE_CHECKING:
+    from .tree import Tree
 
 __all__ = ["clusters_within", "clade_diameters", "REL_TOL"]
 
@@ -49,7 +54,7 @@ __all__ = ["clusters_within", "clade_diameters", "REL_TOL"]
 REL_TOL = 1e-9
 
 
-def clade_diameters(tree):
+def clade_diameters(tree: Tree) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     """Largest leaf-to-leaf path length inside every clade, and every node's
     height (longest path down to a leaf).
 
@@ -81,7 +86,7 @@ def clade_diameters(tree):
     return np.maximum(paths.diameter, 0.0), paths.height
 
 
-def _branch_name(tree, v):
+def _branch_name(tree: Tree, v: int) -> str:
     """'the branch above taxon x' or 'the branch above the clade of a, b and 3 more'."""
     names = tree.leaf_names
     if v < tree.n_leaves:
@@ -98,7 +103,7 @@ def _branch_name(tree, v):
     return f"the branch above the clade of {shown}"
 
 
-def _need_lengths(tree, source=None):
+def _need_lengths(tree: Tree, source: str | None = None) -> None:
     """Raise InputError unless every branch has a length: a path length
     cannot be measured over a branch without one (counting it as 0 would put
     taxa into one group silently)."""
@@ -116,7 +121,8 @@ def _need_lengths(tree, source=None):
                      "so taxa cannot be grouped by path length; give every branch a length", source=source)
 
 
-def clusters_within(tree, d, *, root="auto", source=None):
+def clusters_within(tree: Tree, d: float, *, root: str = "auto", source: str | None = None
+                    ) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
     """Split the leaves into the largest clades of diameter at most ``d``.
 
     Parameters
@@ -193,7 +199,7 @@ def clusters_within(tree, d, *, root="auto", source=None):
     raw = np.array(g[:n], dtype=np.int64)
     sizes = np.bincount(raw, minlength=tops.size)
     names = tree.leaf_names
-    first_name = [None] * tops.size
+    first_name: list[str | None] = [None] * tops.size
     for i in np.argsort(np.array(names, dtype=object), kind="stable").tolist():
         if first_name[raw[i]] is None:
             first_name[raw[i]] = names[i]

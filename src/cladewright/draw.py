@@ -18,15 +18,25 @@ from __future__ import annotations
 
 import io
 import os
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from .errors import InputError
 from .textdraw import nice_length, tree_layout
 
-__all__ = ["render_tree", "tree_figure", "figure_bytes", "FORMATS", "GROUP_COLOURS", "SINGLE"]
+if TYPE_CHECKING:
+    from matplotlib.figure import Figure
 
-FORMATS = {".svg": "svg", ".png": "png", ".pdf": "pdf"}
+    from .tree import Tree
+
+__all__ = ["render_tree", "tree_figure", "figure_bytes", "FigureFormat", "FORMATS", "GROUP_COLOURS", "SINGLE"]
+
+#: The figure formats, as matplotlib names them.
+FigureFormat = Literal["svg", "png", "pdf"]
+#: File suffix (lower case) -> figure format.
+FORMATS: dict[str, FigureFormat] = {".svg": "svg", ".png": "png", ".pdf": "pdf"}
 
 INK = "#1f3a56"
 LEADER = "#c3ccd6"
@@ -35,22 +45,24 @@ LOW = "#c4501a"
 NOTE = "#55616d"
 #: Colours of taxon groups (``groups=``), given in drawing order from the top
 #: and cycled, so neighbouring groups always differ; single taxa stay grey.
-GROUP_COLOURS = ("#1b7f79", "#b03a5b", "#2f6db5", "#c07a00", "#7a4ea3", "#5a8f29", "#8c5a2b", "#d0577b")
-SINGLE = "#7d8894"
+GROUP_COLOURS: tuple[str, ...] = ("#1b7f79", "#b03a5b", "#2f6db5", "#c07a00", "#7a4ea3", "#5a8f29", "#8c5a2b", "#d0577b")
+#: Colour of a taxon alone in its group.
+SINGLE: str = "#7d8894"
 
-def _rc(salt):
+def _rc(salt: str) -> dict[Any, Any]:
     return {"svg.fonttype": "none", "svg.hashsalt": salt, "pdf.fonttype": 42, "ps.fonttype": 42,
             "font.family": "DejaVu Sans"}
 
 
-def _support_text(value):
+def _support_text(value: float) -> str:
     if abs(value) >= 1000:  # not a percentage; keep the label short
         return f"{value:.3g}"
     r = round(value)
     return str(int(r)) if abs(value - r) < 0.05 else f"{value:.1f}"
 
 
-def tree_figure(tree, highlight_below=None, ladderize=True, title=None, *, groups=None, support=True):
+def tree_figure(tree: Tree, highlight_below: float | None = None, ladderize: bool = True, title: str | None = None,
+                *, groups: ArrayLike | None = None, support: bool = True) -> Figure:
     """The figure of a tree (a matplotlib Figure on an Agg canvas).
 
     Parameters
@@ -91,6 +103,7 @@ def tree_figure(tree, highlight_below=None, ladderize=True, title=None, *, group
     x, y, kids, rows, has_lengths = tree_layout(tree, ladderize)
     names = tree.leaf_names
     root = tree.root
+    threshold = None if highlight_below is None else float(highlight_below)
     span = float(x.max()) if m > 1 else 0.0
     if span <= 0:
         span = 1.0
@@ -126,7 +139,7 @@ def tree_figure(tree, highlight_below=None, ladderize=True, title=None, *, group
                 vert.append(((x[v], y[ks[0]]), (x[v], y[ks[-1]])))
         if tree.rooted:
             horiz.append(((-stub, y[root]), (0.0, y[root])))
-        style = dict(colors=INK, linewidths=lw, capstyle="round", joinstyle="round")
+        style: dict[str, Any] = dict(colors=INK, linewidths=lw, capstyle="round", joinstyle="round")
         ax.add_collection(LineCollection(horiz + vert, **style))
         # Dotted leaders from each tip to the column of names.
         tip_x = x[:n]
@@ -171,7 +184,7 @@ def tree_figure(tree, highlight_below=None, ladderize=True, title=None, *, group
                 s = float(sup[v])
                 if v == root or v == skip or s != s:
                     continue
-                is_low = highlight_below is not None and s < float(highlight_below)
+                is_low = threshold is not None and s < threshold
                 if is_low:
                     low_x.append(x[v])
                     low_y.append(y[v])
@@ -198,19 +211,19 @@ def tree_figure(tree, highlight_below=None, ladderize=True, title=None, *, group
         if not tree.rooted:
             notes.append(("unrooted tree: drawn from an arbitrary node", NOTE))
         if low_x:
-            notes.append((f"open ring: support below {float(highlight_below):g}", LOW))
+            notes.append((f"open ring: support below {threshold:g}", LOW))
         if groups is not None:
             notes.append(("names coloured by group; grey: alone in its group", NOTE))
-        for k, (text, tint) in enumerate(notes):
+        for k, (text, ink) in enumerate(notes):
             foot.text(0.0, 0.48 - 0.2 * k, text, ha="left", va="top",
-                      fontsize=small, color=tint)
+                      fontsize=small, color=ink)
         if title:
             fig.text(left / width, 1.0 - 0.22 / height, title, ha="left", va="top", fontsize=font + 2,
                      fontweight="bold", color="#1b1f24")
     return fig
 
 
-def figure_bytes(fig, fmt, salt="cladewright"):
+def figure_bytes(fig: Figure, fmt: FigureFormat, salt: str = "cladewright") -> bytes:
     """The figure encoded as ``fmt`` (``svg``, ``png`` or ``pdf``), bytes.
 
     Output is reproducible: no dates in SVG or PDF metadata, fixed SVG ids.
@@ -228,7 +241,9 @@ def figure_bytes(fig, fmt, salt="cladewright"):
     return buf.getvalue()
 
 
-def render_tree(tree, path, highlight_below=None, ladderize=True, title=None, *, groups=None, support=True):
+def render_tree(tree: Tree, path: str | os.PathLike[str], highlight_below: float | None = None,
+                ladderize: bool = True, title: str | None = None, *, groups: ArrayLike | None = None,
+                support: bool = True) -> FigureFormat:
     """Draw a tree to an SVG, PNG or PDF file, chosen by the file's suffix.
 
     Parameters

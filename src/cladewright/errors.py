@@ -12,6 +12,13 @@ cap, negative branch lengths, sequences with little data) is a
 and worded the same in the command line's summary and in the run report.
 """
 
+from __future__ import annotations
+
+import os
+from collections.abc import Sequence
+
+__all__ = ["CladewrightError", "InputError", "SaturationError", "CladewrightWarning"]
+
 
 class CladewrightError(Exception):
     """Base class of every error cladewright raises on purpose."""
@@ -20,7 +27,10 @@ class CladewrightError(Exception):
 class InputError(CladewrightError, ValueError):
     """Bad input: the message names the file, the record and the fix."""
 
-    def __init__(self, message, *, source=None):
+    #: The file (or other input) the message is about, or None.
+    source: str | os.PathLike[str] | None
+
+    def __init__(self, message: str, *, source: str | os.PathLike[str] | None = None) -> None:
         self.source = source
         if source:
             message = f"{source}: {message}"
@@ -30,7 +40,11 @@ class InputError(CladewrightError, ValueError):
 class SaturationError(InputError):
     """A distance is undefined because a logarithm's argument is <= 0."""
 
-    def __init__(self, message, pairs, *, source=None):
+    #: The pairs (row, column) whose distance is undefined.
+    pairs: Sequence[tuple[int, int]]
+
+    def __init__(self, message: str, pairs: Sequence[tuple[int, int]], *,
+                 source: str | os.PathLike[str] | None = None) -> None:
         self.pairs = pairs
         super().__init__(message, source=source)
 
@@ -51,23 +65,26 @@ class CladewrightWarning(UserWarning):
         One line, in the library's terms (parameters, not command-line options).
     """
 
-    def __init__(self, kind: str, message: str):
+    kind: str
+    message: str
+
+    def __init__(self, kind: str, message: str) -> None:
         self.kind = kind
         self.message = message
         super().__init__(message)
 
-    def __reduce__(self):
+    def __reduce__(self) -> tuple[type[CladewrightWarning], tuple[str, str]]:
         return type(self), (self.kind, self.message)
 
-    def __eq__(self, other):
+    def __eq__(self, other: object) -> bool:
         return (isinstance(other, CladewrightWarning)
                 and (self.kind, self.message) == (other.kind, other.message))
 
-    def __hash__(self):
+    def __hash__(self) -> int:
         return hash((self.kind, self.message))
 
-    def __repr__(self):
+    def __repr__(self) -> str:
         return f"CladewrightWarning({self.kind!r}, {self.message!r})"
 
-    def __str__(self):
+    def __str__(self) -> str:
         return self.message

@@ -7,7 +7,12 @@ are written with ``repr`` precision so that a matrix round-trips exactly.
 
 from __future__ import annotations
 
+import os
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from typing import Any, cast
+
 import numpy as np
+from numpy.typing import ArrayLike, DTypeLike, NDArray
 
 from .errors import InputError
 from .io.matrix_tsv import format_distance_tsv
@@ -56,7 +61,14 @@ class DistanceMatrix:
 
     __slots__ = ("_names", "_values", "info")
 
-    def __init__(self, names, values, *, validate=True, dtype=np.float64, source=None, info=None):
+    _names: tuple[str, ...]
+    _values: NDArray[np.floating]
+    #: Facts about how the matrix was made (model, sites used, warnings).
+    info: dict[str, Any]
+
+    def __init__(self, names: Iterable[str], values: ArrayLike, *, validate: bool = True,
+                 dtype: DTypeLike = np.float64, source: str | None = None,
+                 info: Mapping[str, Any] | None = None) -> None:
         names = _as_names(names, source)
         dtype = as_float_dtype(dtype, source)
         values = _as_values(values, dtype, source)
@@ -66,7 +78,8 @@ class DistanceMatrix:
         self._own(names, values, info)
 
     @classmethod
-    def _adopt(cls, names, values, *, info=None):
+    def _adopt(cls, names: Iterable[str], values: NDArray[np.floating], *,
+               info: Mapping[str, Any] | None = None) -> DistanceMatrix:
         """Wrap an array the caller made and hands over (no copy, no check).
 
         For cladewright's own builders only (the distance engine, the TSV
@@ -77,7 +90,7 @@ class DistanceMatrix:
         self._own(tuple(names), values, info)
         return self
 
-    def _own(self, names, values, info):
+    def _own(self, names: tuple[str, ...], values: NDArray[np.floating], info: Mapping[str, Any] | None) -> None:
         values.flags.writeable = False
         # Kept as a view of the frozen array: numpy refuses to make a view
         # writeable again while its base is read-only.
@@ -88,33 +101,33 @@ class DistanceMatrix:
         self.info = dict(info or {})
 
     @property
-    def names(self):
+    def names(self) -> tuple[str, ...]:
         """Taxon names (tuple of str), in row order."""
         return self._names
 
     @property
-    def values(self):
+    def values(self) -> NDArray[np.floating]:
         """The read-only n x n distance array."""
         return self._values
 
-    def __reduce__(self):
+    def __reduce__(self) -> tuple[Callable[..., DistanceMatrix], tuple[Any, ...]]:
         # Unpickled arrays come back writeable: freeze again on arrival.
         return _unpickle, (self._names, np.asarray(self._values), self.info)
 
-    def __len__(self):
+    def __len__(self) -> int:
         return len(self.names)
 
-    def __repr__(self):
+    def __repr__(self) -> str:
         return f"DistanceMatrix({len(self.names)} taxa)"
 
-    def index(self, name):
+    def index(self, name: str) -> int:
         """Row of a taxon name."""
         try:
             return self.names.index(name)
         except ValueError:
             raise InputError(f"taxon {name!r} is not in the matrix") from None
 
-    def to_tsv(self):
+    def to_tsv(self) -> str:
         """The labelled TSV text of the matrix.
 
         Raises
@@ -125,13 +138,13 @@ class DistanceMatrix:
         """
         return format_distance_tsv(self)
 
-    def write(self, path):
+    def write(self, path: str | os.PathLike[str]) -> None:
         """Write the labelled TSV to ``path`` (atomically: a temporary file in
         the same folder, renamed into place when complete)."""
         write_text_atomic(path, self.to_tsv())
 
 
-def _unpickle(names, values, info):
+def _unpickle(names: tuple[str, ...], values: NDArray[np.floating], info: dict[str, Any]) -> DistanceMatrix:
     return DistanceMatrix._adopt(names, values, info=info)
 
 
@@ -139,7 +152,7 @@ _KINDS = {"c": "complex", "b": "true/false", "O": "Python objects", "U": "text",
           "m": "time span", "V": "structured"}
 
 
-def _as_names(names, source):
+def _as_names(names: Iterable[object], source: str | None) -> tuple[str, ...]:
     try:
         return tuple(str(x) for x in names)
     except TypeError:
@@ -147,7 +160,7 @@ def _as_names(names, source):
                          source=source) from None
 
 
-def as_float_dtype(dtype, source=None):
+def as_float_dtype(dtype: DTypeLike, source: str | None = None) -> np.dtype[np.floating]:
     """``dtype`` as a numpy float dtype a matrix may hold.
 
     Parameters
@@ -171,10 +184,10 @@ def as_float_dtype(dtype, source=None):
         dt = None
     if dt is None or dt not in (np.dtype(np.float64), np.dtype(np.float32)):  # None == float64 to numpy
         raise InputError(f"dtype={dtype!r} is not supported; give numpy.float64 or numpy.float32", source=source)
-    return dt
+    return cast("np.dtype[np.floating]", dt)  # one of the two float dtypes, checked above
 
 
-def _as_values(values, dtype, source):
+def _as_values(values: ArrayLike, dtype: np.dtype[np.floating], source: str | None) -> NDArray[np.floating]:
     """A C-ordered array of ``dtype`` that no caller holds: always a copy of a
     caller's array, since the matrix must not change after it was checked."""
     if isinstance(values, np.ma.MaskedArray) and np.ma.getmaskarray(values).any():
@@ -196,7 +209,8 @@ def _as_values(values, dtype, source):
     return np.array(arr, dtype=dtype, order="C", copy=True)
 
 
-def check_distance_matrix(names, values, source=None, where=None):
+def check_distance_matrix(names: Sequence[str], values: NDArray[np.floating], source: str | None = None,
+                          where: Callable[[int, int], str] | None = None) -> None:
     """Check that ``values`` is a distance matrix for ``names``: square, one
     row per unique name, finite, non-negative, zero diagonal, symmetric.
 
@@ -218,7 +232,7 @@ def check_distance_matrix(names, values, source=None, where=None):
     _check_values(names, values, source, where)
 
 
-def _check_shape(names, values, source):
+def _check_shape(names: Sequence[str], values: NDArray[np.floating], source: str | None) -> None:
     n = len(names)
     if values.ndim != 2 or values.shape[0] != values.shape[1]:
         raise InputError(f"the matrix is {values.shape}, not square; give one row and one column per taxon",
@@ -226,7 +240,7 @@ def _check_shape(names, values, source):
     if values.shape[0] != n:
         raise InputError(f"{n} names for a {values.shape[0]} x {values.shape[0]} matrix; give one name per row",
                          source=source)
-    seen = {}
+    seen: dict[str, int] = {}
     for i, name in enumerate(names):
         if name in seen:
             raise InputError(f"taxon {name!r} appears twice (rows {seen[name] + 1} and {i + 1}); "
@@ -234,8 +248,9 @@ def _check_shape(names, values, source):
         seen[name] = i
 
 
-def _check_values(names, values, source, where=None):
-    def at(i, j):
+def _check_values(names: Sequence[str], values: NDArray[np.floating], source: str | None,
+                  where: Callable[[int, int], str] | None = None) -> None:
+    def at(i: int, j: int) -> str:
         return f"{where(int(i), int(j))}: " if where is not None else ""
 
     n = len(names)

@@ -1,4 +1,6 @@
-"""How much memory a run needs, checked before it starts.
+"""Internal: the memory check the command line makes before a run.
+
+How much memory a run needs, checked before it starts.
 
 A run over n taxa holds the n x n distance matrix, and a tree method holds a
 working copy (NJ a whole matrix, BIONJ a second one for its variances, the
@@ -29,19 +31,20 @@ TREE_BASE = 2048
 TREE_PER_TAXON = 256
 #: n x n matrices a tree method holds besides the input: the linkage methods one triangle (half a matrix),
 #: NJ its working copy, BIONJ also its variances (Gascuel 1997).
-WORKING_MATRICES = {**dict.fromkeys(LINKAGE_METHODS, 0.5), **dict.fromkeys(JOINING_METHODS, 1), "bionj": 2}
+WORKING_MATRICES: dict[str, float] = {**dict.fromkeys(LINKAGE_METHODS, 0.5), **dict.fromkeys(JOINING_METHODS, 1),
+                                      "bionj": 2}
 #: The method suggested when BIONJ does not fit: the same search without the variance matrix.
-LEANER = {"bionj": "nj"}
+LEANER: dict[str, str] = {"bionj": "nj"}
 
 
-def _matrices(method):
+def _matrices(method: str | None) -> float:
     """n x n matrices ``method`` holds besides the input (see :data:`WORKING_MATRICES`); none without one."""
     if method is None:
         return 0
     return WORKING_MATRICES.get(str(method).lower(), 0.5)
 
 
-def estimate_bytes(n, *, method=None, precision="double", workers=0):
+def estimate_bytes(n: int, *, method: str | None = None, precision: str = "double", workers: int = 0) -> int:
     """Peak bytes of a run on ``n`` taxa.
 
     Parameters
@@ -62,7 +65,7 @@ def estimate_bytes(n, *, method=None, precision="double", workers=0):
     return int(main + workers * per_worker)
 
 
-def available_bytes():
+def available_bytes() -> int | None:
     """Memory the system can give now (MemAvailable), or None where unknown."""
     try:
         with open("/proc/meminfo") as fh:
@@ -77,11 +80,11 @@ def available_bytes():
         return None
 
 
-def _gib(x):
+def _gib(x: float) -> str:
     return f"{x / 2**30:.1f} GiB" if x < 2**40 else f"{x / 2**40:,.1f} TiB"
 
 
-def replicate_tree_bytes(n):
+def replicate_tree_bytes(n: int) -> int:
     """Bytes one kept replicate tree over ``n`` taxa takes (an upper estimate).
 
     Parameters
@@ -95,13 +98,14 @@ def replicate_tree_bytes(n):
     return TREE_BASE + TREE_PER_TAXON * int(n)
 
 
-def _round_down(count):
+def _round_down(count: int) -> int:
     """``count`` cut to two significant digits, so that the advice reads as a round number."""
     step = 10 ** max(0, len(str(count)) - 2)
     return count // step * step
 
 
-def check_replicates_fit(n, replicates, *, method=None, precision="double", workers=0, available=None):
+def check_replicates_fit(n: int, replicates: int, *, method: str | None = None, precision: str = "double",
+                         workers: int = 0, available: int | None = None) -> None:
     """Raise :class:`InputError` when ``replicates`` trees over ``n`` taxa cannot be kept in memory
     beside the run itself, naming a count that fits.
 
@@ -129,7 +133,8 @@ def check_replicates_fit(n, replicates, *, method=None, precision="double", work
                      "replicates")
 
 
-def check_fits(n, *, method=None, precision="double", workers=0, available=None):
+def check_fits(n: int, *, method: str | None = None, precision: str = "double", workers: int = 0,
+               available: int | None = None) -> None:
     """Raise :class:`InputError` when the run cannot fit, naming what would."""
     available = available_bytes() if available is None else available
     if available is None:

@@ -1,4 +1,6 @@
-"""Longest paths in a tree: every node's height and every clade's diameter
+"""Internal: the longest-path pass behind midpoint_root and clusters_within.
+
+Longest paths in a tree: every node's height and every clade's diameter
 in one postorder pass, shared by midpoint rooting and by grouping taxa
 within a divergence threshold.
 
@@ -24,6 +26,7 @@ import math
 from typing import NamedTuple
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 __all__ = ["LongestPaths", "longest_paths"]
 
@@ -33,19 +36,19 @@ class LongestPaths(NamedTuple):
 
     #: float64 (m,): longest path from the node down to a leaf (a leaf is a
     #: path of length 0 to itself; -inf for an internal node without children).
-    height: np.ndarray
+    height: NDArray[np.float64]
     #: int64 (m,): the leaf at the end of that path (the node itself for a leaf).
-    far_leaf: np.ndarray
+    far_leaf: NDArray[np.int64]
     #: float64 (m,): longest leaf-to-leaf path inside the node's clade, -inf
     #: where there is none (a clade of one leaf).
-    diameter: np.ndarray
+    diameter: NDArray[np.float64]
     #: int64 (m, 3): that path's far end, its near end and its apex (the node
     #: where its two arms meet); the far end closes the longer arm. -1 where
     #: the diameter is -inf.
-    ends: np.ndarray
+    ends: NDArray[np.int64]
 
 
-def longest_paths(parent, length, post, n_leaves) -> LongestPaths:
+def longest_paths(parent: ArrayLike, length: ArrayLike, post: ArrayLike, n_leaves: int) -> LongestPaths:
     """Height and far leaf of every node, diameter and its ends of every clade.
 
     Parameters

@@ -16,7 +16,10 @@ size-weighted averages).
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING, Any, Sequence
+
 import numpy as np
+from numpy.typing import ArrayLike, DTypeLike, NDArray
 
 from .alignment import distinct_sequences
 from .build import build_tree_with_info
@@ -24,6 +27,11 @@ from .choices import JOINING_METHODS, METHODS
 from .distances import ZERO_WHEN_IDENTICAL, distance_matrix, resolve_model
 from .errors import CladewrightWarning
 from .polytomies import ZERO_TOLERANCE, attach_identical, collapse_zero_branches
+
+if TYPE_CHECKING:
+    from .alignment import Alignment
+    from .matrix import DistanceMatrix
+    from .tree import Tree
 
 __all__ = ["tree_from_alignment", "distinct_tree", "split_identical", "finish_tree", "zero_tolerance",
            "identical_info", "run_warnings", "LITTLE_DATA"]
@@ -34,13 +42,13 @@ LITTLE_DATA = 0.5
 LISTED = 10
 
 
-def zero_tolerance(dtype):
+def zero_tolerance(dtype: DTypeLike) -> float:
     """How close to zero, relative to the longest branch, a length counts
     as zero: rounding in float32 matrices reaches about 1e-7 of a distance."""
     return 1e-6 if np.dtype(dtype) == np.float32 else ZERO_TOLERANCE
 
 
-def split_identical(alignment, model):
+def split_identical(alignment: Alignment, model: str) -> tuple[Alignment, NDArray[np.int64]]:
     """The alignment to compute on, and the row of it that stands for each sequence.
 
     Parameters
@@ -61,21 +69,23 @@ def split_identical(alignment, model):
     return distinct_sequences(alignment)
 
 
-def finish_tree(tree, names, group, tolerance=ZERO_TOLERANCE):
+def finish_tree(tree: Tree, names: Sequence[str], group: ArrayLike, tolerance: float = ZERO_TOLERANCE) -> Tree:
     """Groups of identical sequences put back as polytomies, and branches
     of length zero contracted (see :mod:`cladewright.polytomies`)."""
     return collapse_zero_branches(attach_identical(tree, names, group), tolerance)
 
 
-def identical_info(group):
+def identical_info(group: NDArray[np.int64]) -> dict[str, int]:
     """How many groups of two or more identical sequences, and how many sequences they hold."""
     sizes = np.bincount(group) if group.size else np.zeros(0, np.int64)
     return {"identical_groups": int(np.count_nonzero(sizes > 1)),
             "identical_sequences": int(sizes[sizes > 1].sum())}
 
 
-def tree_from_alignment(alignment, model="k2p", method="nj", *, gamma=None, gaps="pairwise", freqs="alignment",
-                        saturated="error", negative="zero", dtype=np.float64, progress=False):
+def tree_from_alignment(alignment: Alignment, model: str = "k2p", method: str = "nj", *, gamma: float | None = None,
+                        gaps: str = "pairwise", freqs: str = "alignment", saturated: str = "error",
+                        negative: str = "zero", dtype: DTypeLike = np.float64, progress: bool = False
+                        ) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
     """Distances and a tree for an alignment, identical sequences entered once.
 
     Parameters
@@ -121,9 +131,11 @@ def tree_from_alignment(alignment, model="k2p", method="nj", *, gamma=None, gaps
     return finish_tree(tree, alignment.names, group, zero_tolerance(dtype)), info, dm
 
 
-def distinct_tree(distinct, model, method, *, gamma=None, gaps="pairwise", freqs="alignment", saturated="error",
-                  negative="zero", dtype=np.float64, weights=None, fit=True, serial=False, progress=False,
-                  n_sequences=None):
+def distinct_tree(distinct: Alignment, model: str, method: str, *, gamma: float | None = None, gaps: str = "pairwise",
+                  freqs: str = "alignment", saturated: str = "error", negative: str = "zero",
+                  dtype: DTypeLike = np.float64, weights: ArrayLike | None = None, fit: bool = True,
+                  serial: bool = False, progress: bool = False, n_sequences: int | None = None
+                  ) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
     """Distances and the tree of the distinct sequences (see :func:`split_identical`).
 
     Parameters
@@ -154,7 +166,9 @@ def distinct_tree(distinct, model, method, *, gamma=None, gaps="pairwise", freqs
     return tree, info, dm
 
 
-def _few_distinct(distinct, model, gamma, gaps, freqs, saturated, method, dtype, weights):
+def _few_distinct(distinct: Alignment, model: str, gamma: float | None, gaps: str, freqs: str, saturated: str,
+                  method: str, dtype: DTypeLike, weights: ArrayLike | None
+                  ) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
     """The tree of one or two distinct sequences (their groups added later)."""
     from .matrix import DistanceMatrix
     from .tree import Tree
@@ -178,7 +192,7 @@ def _few_distinct(distinct, model, gamma, gaps, freqs, saturated, method, dtype,
     return tree, info, dm
 
 
-def run_warnings(info: dict, alignment=None) -> list[CladewrightWarning]:
+def run_warnings(info: dict[str, Any], alignment: Alignment | None = None) -> list[CladewrightWarning]:
     """What a user should know about a run whose result stands, one record per kind.
 
     Parameters

@@ -16,7 +16,10 @@ a node with more than two children is a polytomy (common practice).
 
 from __future__ import annotations
 
+from typing import Sequence
+
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from .tree import Tree
 
@@ -30,7 +33,7 @@ __all__ = ["ZERO_TOLERANCE", "attach_identical", "collapse_zero_branches", "reso
 ZERO_TOLERANCE = 1e-12
 
 
-def zero_branches(tree, tolerance=ZERO_TOLERANCE):
+def zero_branches(tree: Tree, tolerance: float = ZERO_TOLERANCE) -> NDArray[np.bool_]:
     """Which internal branches have length zero (within ``tolerance``).
 
     Parameters
@@ -55,7 +58,7 @@ def zero_branches(tree, tolerance=ZERO_TOLERANCE):
     return zero
 
 
-def collapse_zero_branches(tree, tolerance=ZERO_TOLERANCE):
+def collapse_zero_branches(tree: Tree, tolerance: float = ZERO_TOLERANCE) -> Tree:
     """The tree with every internal branch of length zero contracted.
 
     The children of a contracted node hang from its parent; their lengths,
@@ -85,7 +88,7 @@ def collapse_zero_branches(tree, tolerance=ZERO_TOLERANCE):
     return _contract(tree, zero)
 
 
-def _contract(tree, drop):
+def _contract(tree: Tree, drop: NDArray[np.bool_]) -> Tree:
     """Contract the branches above the nodes flagged in ``drop``."""
     parent = np.asarray(tree.parent, dtype=np.int64)
     up = parent.copy()
@@ -106,7 +109,7 @@ def _contract(tree, drop):
                 support_text=None if text is None else [text[i] for i in kept.tolist()], rooted=tree.rooted)
 
 
-def attach_identical(tree, names, group):
+def attach_identical(tree: Tree, names: Sequence[str], group: ArrayLike) -> Tree:
     """Put back the sequences that were entered once for their group.
 
     Parameters
@@ -155,13 +158,13 @@ def attach_identical(tree, names, group):
     total = n + (m - d) + multi.size
     new_of_internal = np.concatenate([np.full(d, -1, np.int64), internal_new])
 
-    def mapped(p):
+    def mapped(p: NDArray[np.int64]) -> NDArray[np.int64]:
         return np.where(p >= 0, new_of_internal[np.maximum(p, 0)], -1)
 
     new_parent = np.empty(total, np.int64)
     new_length = np.empty(total, np.float64)
     new_support = np.full(total, np.nan)
-    new_labels = [None] * total
+    new_labels: list[str | None] = [None] * total
     # the tree's internal nodes keep their branches
     new_parent[n:n + m - d] = mapped(parent[d:])
     new_length[n:n + m - d] = length[d:]
@@ -183,7 +186,7 @@ def attach_identical(tree, names, group):
                 rooted=tree.rooted)
 
 
-def resolve_polytomies(tree):
+def resolve_polytomies(tree: Tree) -> Tree:
     """A binary tree: each polytomy resolved by branches of length zero.
 
     The children of a node with more than two children (three at the root
@@ -242,6 +245,6 @@ def resolve_polytomies(tree):
                 rooted=tree.rooted)
 
 
-def _children(tree):
+def _children(tree: Tree) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
     """CSR children of every node, siblings in the tree's written order."""
     return tree.children_table()

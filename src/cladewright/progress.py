@@ -1,9 +1,14 @@
-"""A progress line with the estimated time left, on stderr when it is a terminal."""
+"""Internal: the progress line behind progress=True.
+
+A progress line with the estimated time left, on stderr when it is a terminal."""
 
 from __future__ import annotations
 
 import sys
 import time
+from typing import Literal, TextIO
+
+__all__ = ["Progress"]
 
 
 class Progress:
@@ -13,7 +18,14 @@ class Progress:
     redraws a second, so it costs nothing on fast loops.
     """
 
-    def __init__(self, label, total, *, enabled=True, stream=None, done=0):
+    label: str
+    total: int
+    stream: TextIO
+    enabled: bool
+    done: int
+
+    def __init__(self, label: str, total: int, *, enabled: bool = True, stream: TextIO | None = None,
+                 done: int = 0) -> None:
         self.label = label
         self.total = max(0, int(total))
         self.stream = stream if stream is not None else sys.stderr
@@ -23,22 +35,22 @@ class Progress:
         self._start = time.monotonic()
         self._last = 0.0
 
-    def __enter__(self):
+    def __enter__(self) -> Progress:
         self._draw(force=True)
         return self
 
-    def __exit__(self, *exc):
+    def __exit__(self, *exc: object) -> Literal[False]:
         if self.enabled:
             self._draw(force=True)
             self.stream.write("\n")
             self.stream.flush()
         return False
 
-    def advance(self, k=1):
+    def advance(self, k: int = 1) -> None:
         self.done += k
         self._draw()
 
-    def eta_seconds(self):
+    def eta_seconds(self) -> float | None:
         """Seconds left at the rate seen so far in this run, or None before any progress."""
         made = self.done - self._start_done
         if made <= 0:
@@ -46,7 +58,7 @@ class Progress:
         rate = (time.monotonic() - self._start) / made
         return rate * (self.total - self.done)
 
-    def _draw(self, force=False):
+    def _draw(self, force: bool = False) -> None:
         if not self.enabled:
             return
         now = time.monotonic()
@@ -63,7 +75,7 @@ class Progress:
         self.stream.flush()
 
 
-def _clock(seconds):
+def _clock(seconds: float) -> str:
     seconds = int(round(seconds))
     h, rem = divmod(seconds, 3600)
     m, s = divmod(rem, 60)

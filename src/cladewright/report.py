@@ -19,17 +19,29 @@ from __future__ import annotations
 
 import datetime as _dt
 import html
+import os
 import platform
 import re
 import shlex
+from collections.abc import Iterable, Mapping, Sequence
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from .errors import CladewrightWarning
 
+if TYPE_CHECKING:
+    from matplotlib.figure import Figure
+
+    from .alignment import Alignment
+    from .matrix import DistanceMatrix
+    from .tree import Tree
+
 __all__ = ["write_report", "report_html", "CAUTION", "software_versions"]
 
-CAUTION = ("A distance tree is exploratory evidence: a first look at the data. Where results may feed "
+#: The caution every report opens with (the README's, in short).
+CAUTION: str = ("A distance tree is exploratory evidence: a first look at the data. Where results may feed "
            "decisions about people, such as outbreak or transmission inference, do not rely on it alone: "
            "defer to validated methods, expert review and the rules that apply locally.")
 
@@ -45,7 +57,7 @@ pre{background:#f3f5f7;padding:.6rem;overflow-x:auto;white-space:pre-wrap;word-b
 """
 
 
-def software_versions():
+def software_versions() -> dict[str, str]:
     """Versions of Python and the libraries a run depends on (dict)."""
     from importlib import metadata
 
@@ -62,7 +74,7 @@ def software_versions():
             "platform": platform.platform()}
 
 
-def _svg(fig, salt):
+def _svg(fig: Figure, salt: str) -> str:
     from .draw import figure_bytes
 
     text = figure_bytes(fig, "svg", salt=salt).decode("utf-8")
@@ -72,7 +84,7 @@ def _svg(fig, salt):
     return re.sub(r"<metadata>.*?</metadata>", "", text, flags=re.S)
 
 
-def _heatmap_svg(dm, order_names, alias=None):
+def _heatmap_svg(dm: DistanceMatrix, order_names: list[str], alias: Mapping[str, str] | None = None) -> str:
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
@@ -107,7 +119,7 @@ def _heatmap_svg(dm, order_names, alias=None):
     return _svg(fig, "cladewright-heatmap")
 
 
-def _histogram_svg(values, threshold):
+def _histogram_svg(values: NDArray[np.float64], threshold: float | None) -> str:
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
@@ -129,7 +141,7 @@ def _histogram_svg(values, threshold):
     return _svg(fig, "cladewright-histogram")
 
 
-def _fmt(value):
+def _fmt(value: object) -> str:
     if isinstance(value, float):
         return f"{value:.6g}"
     if isinstance(value, (list, tuple)):
@@ -137,7 +149,7 @@ def _fmt(value):
     return str(value)
 
 
-def _rows(pairs):
+def _rows(pairs: Iterable[tuple[object, object]]) -> str:
     out = ["<table>"]
     for key, value in pairs:
         out.append(f"<tr><th>{html.escape(str(key))}</th><td>{html.escape(_fmt(value))}</td></tr>")
@@ -145,7 +157,7 @@ def _rows(pairs):
     return "\n".join(out)
 
 
-def _identical_alias(alignment, dm):
+def _identical_alias(alignment: Alignment | None, dm: DistanceMatrix) -> dict[str, str]:
     """Each sequence entered once for its group of identical sequences, with
     the name of the sequence whose row of ``dm`` stands for it."""
     if alignment is None or len(dm.names) == alignment.n_taxa:
@@ -157,7 +169,8 @@ def _identical_alias(alignment, dm):
     return {names[i]: names[first[g]] for i, g in enumerate(group.tolist())}
 
 
-def _warnings(alignment, dm, info, given):
+def _warnings(alignment: Alignment | None, dm: DistanceMatrix, info: Mapping[str, Any],
+              given: Iterable[str | CladewrightWarning] | None) -> list[str]:
     """The run's warnings, each worded once: the run's records (``info["warnings"]``,
     else made from ``info``, ``dm.info`` and ``alignment`` by
     :func:`cladewright.pipeline.run_warnings`), and those the caller gives; a given
@@ -176,8 +189,10 @@ def _warnings(alignment, dm, info, given):
     return found
 
 
-def report_html(*, alignment=None, dm, tree, info=None, command_line="", warnings=None, support_values=None,
-                highlight_below=70.0, title="cladewright report"):
+def report_html(*, alignment: Alignment | None = None, dm: DistanceMatrix, tree: Tree,
+                info: Mapping[str, Any] | None = None, command_line: str | Sequence[str] = "",
+                warnings: Iterable[str | CladewrightWarning] | None = None, support_values: ArrayLike | None = None,
+                highlight_below: float | None = 70.0, title: str = "cladewright report") -> str:
     """The report as one HTML string (see :func:`write_report`)."""
     from .draw import tree_figure
     from .textdraw import tree_layout
@@ -187,11 +202,13 @@ def report_html(*, alignment=None, dm, tree, info=None, command_line="", warning
         command_line = shlex.join(str(x) for x in command_line)
     percent, proportions = tree.support_percent()
     if support_values is None:
-        support_values = percent[np.isfinite(percent)]
+        shown = percent[np.isfinite(percent)]
     elif proportions:
-        support_values = 100.0 * np.asarray(support_values, dtype=np.float64)
-    support_values = np.asarray(support_values, dtype=np.float64).reshape(-1)
-    support_values = support_values[np.isfinite(support_values)]
+        shown = 100.0 * np.asarray(support_values, dtype=np.float64)
+    else:
+        shown = np.asarray(support_values, dtype=np.float64)
+    shown = np.asarray(shown, dtype=np.float64).reshape(-1)
+    shown = shown[np.isfinite(shown)]
     all_warnings = _warnings(alignment, dm, info, warnings)
 
     esc = html.escape
@@ -234,16 +251,16 @@ def report_html(*, alignment=None, dm, tree, info=None, command_line="", warning
     parts.append(f"<section id=\"tree\"><h2>Tree</h2>{_rows(fit)}<div class=\"fig\">{tree_svg}</div>"
                  f"<details><summary>Newick</summary><pre>{esc(tree.to_newick())}</pre></details></section>")
 
-    if support_values.size:
-        summary = f"{support_values.size} internal branches; median {np.median(support_values):.0f}%"
+    if shown.size:
+        summary = f"{shown.size} internal branches; median {np.median(shown):.0f}%"
         if highlight_below is not None:
-            low = int(np.count_nonzero(support_values < highlight_below))
+            low = int(np.count_nonzero(shown < highlight_below))
             summary += f"; {low} below {highlight_below:g}%"
         if proportions:
             summary += (". The tree's support values all lie within 0 to 1, so they were read as proportions "
                         "and are shown here as percentages")
         parts.append(f"<section id=\"support\"><h2>Support</h2><p>{esc(summary)}</p>"
-                     f"<div class=\"fig\">{_histogram_svg(support_values, highlight_below)}</div></section>")
+                     f"<div class=\"fig\">{_histogram_svg(shown, highlight_below)}</div></section>")
     else:
         parts.append("<section id=\"support\"><h2>Support</h2><p>No support values (no bootstrap was run).</p>"
                      "</section>")
@@ -264,8 +281,10 @@ def report_html(*, alignment=None, dm, tree, info=None, command_line="", warning
     return "\n".join(parts)
 
 
-def write_report(path, *, alignment=None, dm, tree, info=None, command_line="", warnings=None,
-                 support_values=None, highlight_below=70.0, title="cladewright report"):
+def write_report(path: str | os.PathLike[str], *, alignment: Alignment | None = None, dm: DistanceMatrix,
+                 tree: Tree, info: Mapping[str, Any] | None = None, command_line: str | Sequence[str] = "",
+                 warnings: Iterable[str | CladewrightWarning] | None = None, support_values: ArrayLike | None = None,
+                 highlight_below: float | None = 70.0, title: str = "cladewright report") -> None:
     """Write the HTML report of a run, atomically.
 
     Parameters

@@ -22,7 +22,10 @@ Math. Biosci. 53:131-147 (splits of an unrooted tree).
 
 from __future__ import annotations
 
+from typing import NoReturn, Sequence
+
 import numpy as np
+from numpy.typing import NDArray
 
 from .errors import InputError
 from .paths import longest_paths
@@ -30,8 +33,12 @@ from .tree import Tree
 
 __all__ = ["midpoint_root", "outgroup_root", "root_tree"]
 
+#: The unrooted tree's arrays, as :func:`_unrooted_arrays` gives them: par, length, support, alive, post, text.
+_Unrooted = tuple[NDArray[np.int64], NDArray[np.float64], NDArray[np.float64], NDArray[np.bool_], NDArray[np.int64],
+                  NDArray[np.object_]]
 
-def _unrooted_arrays(tree):
+
+def _unrooted_arrays(tree: Tree) -> _Unrooted:
     """The tree with its root dissolved, as arrays over the original node ids.
 
     Returns
@@ -85,7 +92,7 @@ def _unrooted_arrays(tree):
     return par, length, support, alive, post, text
 
 
-def _cut(tree, arrays, u, x):
+def _cut(tree: Tree, arrays: _Unrooted, u: int, x: float) -> Tree:
     """A rooted Tree with its root on the branch from ``u`` to ``par[u]``, at
     distance ``x`` from ``u`` (``x`` nan when the branch has no length)."""
     par, length, support, alive, _, text = arrays
@@ -95,16 +102,16 @@ def _cut(tree, arrays, u, x):
     new_par = np.append(par, -1)
     new_len = np.append(length, np.nan)
     new_sup = np.append(support, np.nan)
-    new_text = np.append(text, None)
+    new_text = np.append(text, np.array([None], dtype=object))
     # The path from w up to the top changes direction: each node hangs from
     # the one it used to be the parent of, taking that branch's length and
     # support with it.
-    path = [w]
+    walk = [w]
     p = int(par[w])
     while p >= 0:
-        path.append(p)
+        walk.append(p)
         p = int(par[p])
-    path = np.array(path, dtype=np.int64)
+    path = np.array(walk, dtype=np.int64)
     new_par[path[1:]] = path[:-1]
     new_len[path[1:]] = length[path[:-1]]
     new_sup[path[1:]] = support[path[:-1]]
@@ -129,12 +136,12 @@ def _cut(tree, arrays, u, x):
                 support_text=new_text[keep].tolist())
 
 
-def _need_two(tree, what):
+def _need_two(tree: Tree, what: str) -> None:
     if tree.n_leaves < 2:
         raise InputError(f"{what} needs a tree of at least 2 leaves, this one has {tree.n_leaves}")
 
 
-def midpoint_root(tree):
+def midpoint_root(tree: Tree) -> Tree:
     """Root a tree halfway along its longest leaf-to-leaf path.
 
     Parameters
@@ -195,7 +202,7 @@ def midpoint_root(tree):
     return _cut(tree, arrays, u, half - run)
 
 
-def _resolve_names(tree, taxa):
+def _resolve_names(tree: Tree, taxa: Sequence[str]) -> NDArray[np.int64]:
     """Leaf indices of ``taxa``; an exact name first, else the name with '_'
     and ' ' exchanged (Newick reads an unquoted '_' as a blank)."""
     names = tree.leaf_names
@@ -222,7 +229,7 @@ def _resolve_names(tree, taxa):
     return np.array(found, dtype=np.int64)
 
 
-def outgroup_root(tree, taxa):
+def outgroup_root(tree: Tree, taxa: str | Sequence[str]) -> Tree:
     """Root a tree on the branch that separates an outgroup from the rest.
 
     Parameters
@@ -286,7 +293,8 @@ def outgroup_root(tree, taxa):
     _not_a_clade(tree, arrays, out, size, hits, post_has_parent)
 
 
-def _not_a_clade(tree, arrays, out, size, hits, edges):
+def _not_a_clade(tree: Tree, arrays: _Unrooted, out: NDArray[np.int64], size: NDArray[np.int64],
+                 hits: NDArray[np.int64], edges: NDArray[np.int64]) -> NoReturn:
     """Raise the error naming the taxa that keep ``out`` from being a clade."""
     par, _, _, _, post, _ = arrays
     n, k = tree.n_leaves, out.size
@@ -317,7 +325,7 @@ def _not_a_clade(tree, arrays, out, size, hits, edges):
                      f"or choose another outgroup")
 
 
-def root_tree(tree: Tree, *, midpoint: bool = False, outgroup=None) -> Tree:
+def root_tree(tree: Tree, *, midpoint: bool = False, outgroup: Sequence[str] | None = None) -> Tree:
     """Root a tree at its midpoint or on an outgroup: exactly one of the two.
 
     Parameters
@@ -345,7 +353,7 @@ def root_tree(tree: Tree, *, midpoint: bool = False, outgroup=None) -> Tree:
     """
     if bool(midpoint) == (outgroup is not None):
         raise InputError("give exactly one of midpoint=True or outgroup=[taxa]")
-    if midpoint:
+    if outgroup is None:  # so midpoint is true
         return midpoint_root(tree)
     if isinstance(outgroup, str):
         raise InputError(f"outgroup={outgroup!r} is one string; give the taxa as a list, e.g. outgroup=['a', 'b']")

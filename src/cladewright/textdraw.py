@@ -13,8 +13,13 @@ from __future__ import annotations
 
 import math
 import shutil
+from typing import TYPE_CHECKING
 
 import numpy as np
+from numpy.typing import NDArray
+
+if TYPE_CHECKING:
+    from .tree import Tree
 
 __all__ = ["text_tree", "child_lists", "tree_layout", "nice_length"]
 
@@ -24,7 +29,7 @@ _ASCII = {"h": "-", "v": "|", "first": "+", "last": "+", "mid": "+", "node": "+"
           "node_first": "+", "node_last": "+", "node_mid": "+", "root": "-"}
 
 
-def child_lists(tree, ladderize=True):
+def child_lists(tree: Tree, ladderize: bool = True) -> list[list[int]]:
     """Children of every node in drawing order.
 
     Parameters
@@ -46,7 +51,8 @@ def child_lists(tree, ladderize=True):
     return kids
 
 
-def tree_layout(tree, ladderize=True):
+def tree_layout(tree: Tree, ladderize: bool = True) -> tuple[
+        NDArray[np.float64], NDArray[np.float64], list[list[int]], NDArray[np.int64], bool]:
     """Coordinates for a rectangular drawing.
 
     Parameters
@@ -93,7 +99,7 @@ def tree_layout(tree, ladderize=True):
     return np.array(x), np.array(y), kids, np.array(rows, dtype=np.int64), has_lengths
 
 
-def nice_length(span):
+def nice_length(span: float) -> float:
     """A round length (1, 2 or 5 times a power of ten) near a fifth of ``span``."""
     if not span > 0 or not math.isfinite(span):
         return 0.0
@@ -105,7 +111,7 @@ def nice_length(span):
     return base
 
 
-def _support_text(value):
+def _support_text(value: float) -> str:
     if value != value:
         return ""
     if abs(value) >= 1000:  # not a percentage; keep the label short
@@ -114,7 +120,8 @@ def _support_text(value):
     return str(int(r)) if abs(value - r) < 0.05 else f"{value:.1f}"
 
 
-def _columns(root, kids, x, scale, labels, m, *, stretch):
+def _columns(root: int, kids: list[list[int]], x: list[float], scale: float, labels: list[str], m: int, *,
+             stretch: bool) -> tuple[list[int], list[int], bool]:
     """Column of every node: to scale; with ``stretch`` every branch at least
     one column wide and wide enough for its label."""
     col = [0] * m
@@ -135,7 +142,8 @@ def _columns(root, kids, x, scale, labels, m, *, stretch):
     return order, col, stretched
 
 
-def text_tree(tree, width=None, *, ascii=False, ladderize=True, support=True):
+def text_tree(tree: Tree, width: int | None = None, *, ascii: bool = False, ladderize: bool = True,
+              support: bool = True) -> str:
     """The tree as text lines, to print on a terminal.
 
     Parameters

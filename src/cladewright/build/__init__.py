@@ -10,14 +10,21 @@ Mol. Biol. Evol. 5:729–731; Gascuel (1997) Mol. Biol. Evol. 14:685–695.
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING, Any
+
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ..choices import METHODS, NEGATIVE_RULES as NEGATIVE
 from ..errors import InputError
-from ..kernels.matrix import first_non_finite
+from .._kernels.matrix import first_non_finite
 from .fit import fit_statistic
 from .linkage import LINKAGE_METHODS, linkage_arrays
 from .nj import nj_arrays
+
+if TYPE_CHECKING:
+    from ..matrix import DistanceMatrix
+    from ..tree import Tree
 
 __all__ = ["METHODS", "LINKAGE_METHODS", "build_tree", "build_tree_with_info", "fit_statistic",
            "linkage_arrays", "nj_arrays"]
@@ -26,7 +33,8 @@ __all__ = ["METHODS", "LINKAGE_METHODS", "build_tree", "build_tree_with_info", "
 # cladewright.choices' vocabularies, named here as the package has always named them.
 
 
-def build_tree_with_info(dm, method="nj", negative="zero", *, source=None, fit=True, sizes=None):
+def build_tree_with_info(dm: DistanceMatrix, method: str = "nj", negative: str = "zero", *, source: str | None = None,
+                         fit: bool = True, sizes: ArrayLike | None = None) -> tuple[Tree, dict[str, Any]]:
     """Build a tree and report on it.
 
     Parameters
@@ -113,7 +121,8 @@ def build_tree_with_info(dm, method="nj", negative="zero", *, source=None, fit=T
     return tree, info
 
 
-def build_tree(dm, method="nj", negative="zero", *, source=None, sizes=None):
+def build_tree(dm: DistanceMatrix, method: str = "nj", negative: str = "zero", *, source: str | None = None,
+               sizes: ArrayLike | None = None) -> Tree:
     """Build a tree from a distance matrix (see :func:`build_tree_with_info`;
     the fit statistic is skipped here, so replicates pay only for the tree).
 

@@ -10,11 +10,18 @@ Science 155:279–284 (percent standard deviation).
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ..choices import LINKAGE_METHODS, METHODS
 from ..errors import InputError
-from ..kernels.patristic import upper_pearson, upper_relative_squares
+from .._kernels.patristic import upper_pearson, upper_relative_squares
+
+if TYPE_CHECKING:
+    from ..matrix import DistanceMatrix
+    from ..tree import Tree
 
 __all__ = ["fit_statistic", "cophenetic_correlation", "percent_standard_deviation",
            "COPHENETIC", "PSD"]
@@ -23,7 +30,7 @@ COPHENETIC = "cophenetic correlation"
 PSD = "percent standard deviation"
 
 
-def cophenetic_correlation(patristic, distances):
+def cophenetic_correlation(patristic: ArrayLike, distances: ArrayLike) -> float:
     """Pearson correlation of the pairs i < j of patristic and input distances.
 
     Parameters
@@ -44,7 +51,7 @@ def cophenetic_correlation(patristic, distances):
                                np.ascontiguousarray(distances, dtype=np.float64)))
 
 
-def percent_standard_deviation(patristic, distances):
+def percent_standard_deviation(patristic: ArrayLike, distances: ArrayLike) -> float:
     """Fitch & Margoliash's percent standard deviation.
 
     PSD = 100 * sqrt( sum_{i<j, d_ij != 0} ((d_ij − p_ij) / d_ij)^2 / N ),
@@ -73,7 +80,7 @@ def percent_standard_deviation(patristic, distances):
     return float(100.0 * np.sqrt(total / cnt))
 
 
-def fit_statistic(tree, dm, method=None):
+def fit_statistic(tree: Tree, dm: DistanceMatrix, method: str | None = None) -> tuple[str, float]:
     """The fit of a tree to a distance matrix.
 
     Parameters

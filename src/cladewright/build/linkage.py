@@ -19,10 +19,11 @@ from __future__ import annotations
 from typing import NamedTuple
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from ..errors import InputError
-from ..kernels.linkage import nn_chain_linkage
-from ..kernels.matrix import condense_upper
+from .._kernels.linkage import nn_chain_linkage
+from .._kernels.matrix import condense_upper
 
 __all__ = ["LanceWilliams", "LINKAGE_METHODS", "linkage_arrays"]
 
@@ -44,7 +45,7 @@ class LanceWilliams(NamedTuple):
 #: Lance & Williams (1967), Table 1. A new method is a new row, provided it is
 #: reducible (d(k, i∪j) >= min(d(k,i), d(k,j)) whenever i, j are closest):
 #: the nearest-neighbour chain is exact only then.
-LINKAGE_METHODS = {
+LINKAGE_METHODS: dict[str, LanceWilliams] = {
     "single": LanceWilliams(0.5, 0.5, 0.0, -0.5),
     "complete": LanceWilliams(0.5, 0.5, 0.0, 0.5),
     "upgma": LanceWilliams(0.5, 0.5, 0.0, 0.0, size_weighted=True),
@@ -52,12 +53,13 @@ LINKAGE_METHODS = {
 }
 
 
-def working_dtype(values):
+def working_dtype(values: object) -> type[np.float32] | type[np.float64]:
     """float32 for a single-precision matrix (half the memory of a run), else float64."""
     return np.float32 if getattr(values, "dtype", None) == np.float32 else np.float64
 
 
-def linkage_arrays(values, method, sizes=None):
+def linkage_arrays(values: ArrayLike, method: str, sizes: ArrayLike | None = None
+                   ) -> tuple[NDArray[np.int64], NDArray[np.float64], NDArray[np.float64]]:
     """Agglomerate a distance matrix into a rooted ultrametric tree.
 
     Parameters
@@ -88,7 +90,7 @@ def linkage_arrays(values, method, sizes=None):
     Notes
     -----
     Ties follow the chain's rule (see
-    :func:`cladewright.kernels.linkage.nn_chain_linkage`): the same input
+    :func:`cladewright._kernels.linkage.nn_chain_linkage`): the same input
     gives the same tree every run.
 
     References

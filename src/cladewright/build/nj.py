@@ -1,6 +1,8 @@
-"""Unrooted trees by neighbour joining and BIONJ.
+"""Internal: the neighbour-joining and BIONJ step behind cladewright.build_tree.
 
-Thin wrapper around :func:`cladewright.kernels.nj.nj_kernel`, which does the
+Unrooted trees by neighbour joining and BIONJ.
+
+Thin wrapper around :func:`cladewright._kernels.nj.nj_kernel`, which does the
 work with an exact bounded pair search (Simonsen, Mailund & Pedersen 2008).
 
 References
@@ -14,14 +16,16 @@ Simonsen, M., Mailund, T. & Pedersen, C. N. S. (2008) WABI, LNCS 5251.
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from .linkage import working_dtype
-from ..kernels.nj import LIST_LENGTH, N_CLASSES, nj_kernel
+from .._kernels.nj import LIST_LENGTH, N_CLASSES, nj_kernel
 
 __all__ = ["nj_arrays"]
 
 
-def nj_arrays(values, bionj=False, list_length=LIST_LENGTH, n_classes=N_CLASSES):
+def nj_arrays(values: ArrayLike, bionj: bool = False, list_length: int = LIST_LENGTH,
+              n_classes: int = N_CLASSES) -> tuple[NDArray[np.int64], NDArray[np.float64]]:
     """Neighbour joining (or BIONJ) on a distance matrix.
 
     Parameters

@@ -1,4 +1,6 @@
-"""The command group and what every command shares: the context, the error guard, the
+"""Internal: a part of the command line (run it as the cladewright command).
+
+The command group and what every command shares: the context, the error guard, the
 options common to several commands, the checks on output paths, and the table that
 turns the library's parameter spellings into this command line's options.
 
@@ -12,11 +14,20 @@ import functools
 import os
 import re
 import sys
+from collections.abc import Callable, Sequence
+from typing import TYPE_CHECKING, Any, ParamSpec, TypeVar
 
 import click
 
 from ..choices import ALPHABETS, FREQ_MODES, GAP_MODES, PRECISIONS, SATURATED_MODES, TREE_FORMATS
 from ..errors import CladewrightError, InputError
+
+if TYPE_CHECKING:
+    from ..tree import Tree
+
+P = ParamSpec("P")
+R = TypeVar("R")
+F = TypeVar("F", bound=Callable[..., Any])
 
 __all__ = ["main", "Context", "guarded", "as_options", "PARAMETER_OPTIONS", "model_options",
            "tree_output_options", "check_output_not_input", "output_format", "write_tree", "root_options",
@@ -25,7 +36,7 @@ __all__ = ["main", "Context", "guarded", "as_options", "PARAMETER_OPTIONS", "mod
 #: How the library spells a parameter in its messages, and the option of this command line that sets it.
 #: The library names its own parameters (``saturated="cap"``); a user of the command line is shown the
 #: option (``--saturated cap``). Longer spellings come first, so that none is cut by a shorter one.
-PARAMETER_OPTIONS = (
+PARAMETER_OPTIONS: tuple[tuple[str | re.Pattern[str], str], ...] = (
     ("save_replicates=FILE", "--save-replicates FILE"),
     ('precision="single"', "--precision single"),
     ('alphabet="protein"', "--alphabet protein"),
@@ -40,7 +51,7 @@ PARAMETER_OPTIONS = (
 )
 
 
-def as_options(text) -> str:
+def as_options(text: object) -> str:
     """A library message in this command line's terms: each parameter spelling of
     :data:`PARAMETER_OPTIONS` replaced by its option."""
     text = str(text)
@@ -50,22 +61,28 @@ def as_options(text) -> str:
 
 
 class Context:
-    def __init__(self, debug, quiet):
+    """What every command is given (``click.pass_obj``): the group's ``--debug`` and ``--quiet``."""
+
+    debug: bool
+    quiet: bool
+
+    def __init__(self, debug: bool, quiet: bool) -> None:
         self.debug = debug
         self.quiet = quiet
 
-    def say(self, text):
+    def say(self, text: str) -> None:
+        """Print ``text`` on stderr, unless ``--quiet``."""
         if not self.quiet:
             click.echo(text, err=True)
 
 
-def guarded(func):
+def guarded(func: Callable[P, R]) -> Callable[P, R]:
     """Turn the project's errors into one line on stderr and exit status 2;
     anything unexpected into one line and status 1. ``--debug`` shows the traceback.
     Messages are shown in the command line's terms (:func:`as_options`)."""
 
     @functools.wraps(func)
-    def wrapper(*args, **kwargs):
+    def wrapper(*args: P.args, **kwargs: P.kwargs) -> R:
         ctx = click.get_current_context().find_object(Context)
         try:
             return func(*args, **kwargs)
@@ -106,18 +123,18 @@ def guarded(func):
 @click.option("--debug", is_flag=True, help="Show the full traceback on errors.")
 @click.option("--quiet", "-q", is_flag=True, help="No summary or progress on stderr.")
 @click.pass_context
-def main(ctx, debug, quiet):
+def main(ctx: click.Context, debug: bool, quiet: bool) -> None:
     """Distance-based phylogenetic trees from sequence alignments, with bootstrap support."""
     ctx.obj = Context(debug, quiet)
 
 
-def _apply(func, options):
+def _apply(func: F, options: Sequence[Callable[[F], F]]) -> F:
     for option in reversed(options):
         func = option(func)
     return func
 
 
-def model_options(func):
+def model_options(func: F) -> F:
     """Options shared by every command that computes distances."""
     return _apply(func, [
         click.option("--model", "-m", default="k2p", show_default=True, metavar="MODEL",
@@ -137,7 +154,7 @@ def model_options(func):
     ])
 
 
-def tree_output_options(func):
+def tree_output_options(func: F) -> F:
     """Options shared by every command that writes trees."""
     return _apply(func, [
         click.option("--format", "fmt", type=click.Choice(TREE_FORMATS), default=None,
@@ -149,7 +166,7 @@ def tree_output_options(func):
     ])
 
 
-def check_output_not_input(output, *inputs):
+def check_output_not_input(output: str | None, *inputs: str | None) -> None:
     """Refuse an output path that is one of the inputs: the input would be lost.
     A character device (/dev/null, a terminal) may be both; a FIFO may not."""
     from ..io.output import is_char_device
@@ -165,21 +182,23 @@ def check_output_not_input(output, *inputs):
             raise InputError(f"the output {output} is also an input; choose another output path")
 
 
-def output_format(output, fmt):
+def output_format(output: str, fmt: str | None) -> str:
+    """The tree format to write: ``fmt`` when given, else told from the suffix of ``output``."""
     if fmt:
         return fmt
     name = str(output).lower().removesuffix(".gz")  # tree.nex.gz: gzip-compressed NEXUS
     return "nexus" if name.endswith((".nex", ".nexus", ".nxs")) else "newick"
 
 
-def write_tree(tree, output, fmt, digits, support_digits):
+def write_tree(tree: Tree, output: str, fmt: str | None, digits: int | None, support_digits: int) -> None:
+    """Write ``tree`` to ``output`` in the format :func:`output_format` tells."""
     tree.write(output, format=output_format(output, fmt), digits=digits, support_digits=support_digits)
 
 
-ROOT_HELP = "Root first: 'midpoint', or outgroup taxa separated by commas."
+ROOT_HELP: str = "Root first: 'midpoint', or outgroup taxa separated by commas."
 
 
-def root_options(spec: str) -> dict:
+def root_options(spec: str) -> dict[str, Any]:
     """The ``--root`` option's text as the arguments of :func:`cladewright.rooting.root_tree`.
 
     Parameters

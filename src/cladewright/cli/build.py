@@ -1,4 +1,6 @@
-"""The commands that build: ``distances`` (a matrix from an alignment) and ``tree``
+"""Internal: a part of the command line (run it as the cladewright command).
+
+The commands that build: ``distances`` (a matrix from an alignment) and ``tree``
 (a tree from an alignment or a matrix, with bootstrap support, a root and a report)."""
 
 from __future__ import annotations
@@ -6,6 +8,7 @@ from __future__ import annotations
 import os
 import sys
 import time
+from typing import TYPE_CHECKING
 
 import click
 
@@ -18,9 +21,14 @@ from .app import (check_output_not_input, guarded, main, model_options, output_f
                   tree_output_options, write_tree)
 from .summary import distance_summary, shown_warnings, tree_summary
 
+if TYPE_CHECKING:
+    from ..alignment import Alignment
+    from ..resampling import BootstrapResult
+    from .app import Context
+
 __all__ = ["distances", "tree", "read_input"]
 
-MODEL_HELP = "\b\nModels (--model):\n" + "\n".join(
+MODEL_HELP: str = "\b\nModels (--model):\n" + "\n".join(
     f"  {name:<11} {spec.summary} ({spec.citation})" for name, spec in MODELS.items() if name != "protein-p")
 
 
@@ -30,7 +38,8 @@ MODEL_HELP = "\b\nModels (--model):\n" + "\n".join(
 @model_options
 @click.pass_obj
 @guarded
-def distances(obj, alignment, output, model, gamma, gaps, freqs, saturated, alphabet, precision):
+def distances(obj: Context, alignment: str, output: str, model: str, gamma: float | None, gaps: str, freqs: str,
+              saturated: str, alphabet: str | None, precision: str) -> None:
     """Write the matrix of pairwise distances of ALIGNMENT (FASTA or NEXUS, '-' for stdin)."""
     from ..distances import distance_matrix
     from ..io.readers import read_alignment
@@ -45,7 +54,8 @@ def distances(obj, alignment, output, model, gamma, gaps, freqs, saturated, alph
     obj.say(distance_summary(aln, dm, time.perf_counter() - start))
 
 
-def read_input(path, alphabet, precision="double"):
+def read_input(path: str, alphabet: str | None, precision: str = "double"
+               ) -> tuple[Alignment, None] | tuple[None, DistanceMatrix]:
     """An alignment, or a labelled distance matrix (a TSV whose first cell is empty)."""
     from ..io.files import read_text
     from ..io.readers import read_alignment, read_distance_matrix
@@ -60,7 +70,7 @@ def read_input(path, alphabet, precision="double"):
     return read_alignment(path, alphabet=alphabet, text=text), None
 
 
-def _check_outputs(input_path, output, save_replicates, report_path):
+def _check_outputs(input_path: str, output: str, save_replicates: str | None, report_path: str | None) -> None:
     """Three outputs, no two the same file, none an input."""
     from ..io.output import is_char_device
 
@@ -109,10 +119,11 @@ def _check_outputs(input_path, output, save_replicates, report_path):
 @tree_output_options
 @click.pass_obj
 @guarded
-def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, alphabet, precision, negative,
-         root_spec,
-         replicates, seed, workers, measure, save_replicates, resume, scheduler, report_path, binary, fmt, digits,
-         support_digits):
+def tree(obj: Context, input_path: str, output: str, method: str, model: str, gamma: float | None, gaps: str,
+         freqs: str, saturated: str, alphabet: str | None, precision: str, negative: str, root_spec: str | None,
+         replicates: int, seed: int | None, workers: int | None, measure: str, save_replicates: str | None,
+         resume: bool, scheduler: str | None, report_path: str | None, binary: bool, fmt: str | None,
+         digits: int | None, support_digits: int) -> None:
     """Build a tree from INPUT: an alignment (FASTA or NEXUS) or a labelled distance matrix (TSV)."""
     from ..build import build_tree_with_info
     from ..pipeline import split_identical, tree_from_alignment, zero_tolerance
@@ -123,10 +134,14 @@ def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, 
     start = time.perf_counter()
     aln, dm = read_input(input_path, alphabet, precision)
     # identical sequences enter the distances and the tree once: the matrix is that of the distinct ones
-    n_taxa = split_identical(aln, model)[0].n_taxa if aln is not None else len(dm.names)
+    if aln is not None:
+        n_taxa = split_identical(aln, model)[0].n_taxa
+    else:
+        assert dm is not None  # read_input gives an alignment or a matrix
+        n_taxa = len(dm.names)
     check_fits(n_taxa, method=method, precision=precision,
                workers=(workers or os.cpu_count() or 1) if replicates and scheduler is None else 0)
-    boot = None
+    boot: BootstrapResult | None = None
     if replicates:
         if aln is None:
             raise InputError("bootstrap support needs an alignment, not a distance matrix; give the alignment "
@@ -138,7 +153,9 @@ def tree(obj, input_path, output, method, model, gamma, gaps, freqs, saturated, 
                          save_replicates=save_replicates, resume=resume, scheduler=scheduler,
                          progress=not obj.quiet, precision=precision)
         result, info, dm = boot.tree, boot.info, boot.matrix
+        assert dm is not None  # bootstrap() always returns the matrix of the original data
     elif dm is None:
+        assert aln is not None  # read_input gives an alignment or a matrix
         result, info, dm = tree_from_alignment(aln, model, method, gamma=gamma, gaps=gaps, freqs=freqs,
                                                saturated=saturated, negative=negative,
                                                dtype=PRECISIONS[precision], progress=not obj.quiet)

@@ -1,17 +1,27 @@
-"""The summaries the commands print on stderr after a run: what went in, how
+"""Internal: a part of the command line (run it as the cladewright command).
+
+The summaries the commands print on stderr after a run: what went in, how
 the run was set up, and its warnings, each worded once (by
 :func:`cladewright.pipeline.run_warnings`) and shown in the command line's terms."""
 
 from __future__ import annotations
 
+from collections.abc import Iterable, Mapping
+from typing import TYPE_CHECKING, Any
+
 from ..errors import CladewrightWarning
 from ..pipeline import run_warnings
 from .app import as_options
 
+if TYPE_CHECKING:
+    from ..alignment import Alignment
+    from ..matrix import DistanceMatrix
+    from ..resampling import BootstrapResult
+
 __all__ = ["distance_summary", "tree_summary", "identical_lines", "shown_warnings"]
 
 
-def shown_warnings(info, alignment=None):
+def shown_warnings(info: dict[str, Any], alignment: Alignment | None = None) -> list[CladewrightWarning]:
     """The run's warnings (``info["warnings"]``, else made from ``info``), in the command line's terms."""
     found = info.get("warnings")
     if found is None:
@@ -19,11 +29,11 @@ def shown_warnings(info, alignment=None):
     return [CladewrightWarning(w.kind, as_options(w.message)) for w in found]
 
 
-def warning_lines(warnings):
+def warning_lines(warnings: Iterable[CladewrightWarning]) -> list[str]:
     return [f"warning   {w.message}" for w in warnings]
 
 
-def identical_lines(info):
+def identical_lines(info: Mapping[str, Any]) -> list[str]:
     """The summary's line on groups of identical sequences, when there are any."""
     groups = info.get("identical_groups") or 0
     if not groups:
@@ -32,7 +42,8 @@ def identical_lines(info):
             "each computed once and written as a polytomy"]
 
 
-def distance_summary(aln, dm, seconds):
+def distance_summary(aln: Alignment, dm: DistanceMatrix, seconds: float) -> str:
+    """The summary the ``distances`` command prints: input, sites used, model, warnings, time."""
     info = dm.info
     lines = [
         f"taxa      {aln.n_taxa}",
@@ -45,7 +56,8 @@ def distance_summary(aln, dm, seconds):
     return "\n".join(lines)
 
 
-def tree_summary(aln, dm, info, boot, seconds, warnings):
+def tree_summary(aln: Alignment | None, dm: DistanceMatrix, info: Mapping[str, Any], boot: BootstrapResult | None,
+                 seconds: float, warnings: Iterable[CladewrightWarning]) -> str:
     """``warnings``: the run's warnings as :func:`shown_warnings` gives them."""
     lines = []
     if aln is not None:

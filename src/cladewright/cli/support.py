@@ -1,13 +1,20 @@
-"""The commands that put support on trees already built: ``support`` (from a file of
+"""Internal: a part of the command line (run it as the cladewright command).
+
+The commands that put support on trees already built: ``support`` (from a file of
 replicate trees) and ``consensus`` (the majority-rule consensus of a file of trees)."""
 
 from __future__ import annotations
+
+from typing import TYPE_CHECKING
 
 import click
 import numpy as np
 
 from ..choices import SUPPORT_MEASURES
 from .app import check_output_not_input, guarded, main, tree_output_options, write_tree
+
+if TYPE_CHECKING:
+    from .app import Context
 
 __all__ = ["support", "consensus"]
 
@@ -21,7 +28,8 @@ __all__ = ["support", "consensus"]
 @tree_output_options
 @click.pass_obj
 @guarded
-def support(obj, tree_path, replicates_path, output, measure, fmt, digits, support_digits):
+def support(obj: Context, tree_path: str, replicates_path: str, output: str, measure: str, fmt: str | None,
+            digits: int | None, support_digits: int) -> None:
     """Put support from a file of REPLICATES trees on the first tree of TREE."""
     from ..io import read_trees
     from ..support import apply_support, fbp_support, tbe_support
@@ -44,7 +52,8 @@ def support(obj, tree_path, replicates_path, output, measure, fmt, digits, suppo
 @tree_output_options
 @click.pass_obj
 @guarded
-def consensus(obj, replicates_path, output, threshold, fmt, digits, support_digits):
+def consensus(obj: Context, replicates_path: str, output: str, threshold: float, fmt: str | None,
+              digits: int | None, support_digits: int) -> None:
     """Majority-rule consensus of the trees in REPLICATES, with split frequencies as support."""
     from ..io import read_trees
     from ..support import majority_consensus

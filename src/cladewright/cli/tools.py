@@ -1,10 +1,15 @@
-"""Tree tools on the command line: root, compare, clusters, draw, show.
+"""Internal: a part of the command line (run it as the cladewright command).
+
+Tree tools on the command line: root, compare, clusters, draw, show.
 
 Registered on :data:`cladewright.cli.main` (the package imports this module).
 No computation here: read, call the library, write, report.
 """
 
 from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from typing import TYPE_CHECKING, Any
 
 import click
 import numpy as np
@@ -13,8 +18,12 @@ from ..choices import CLUSTER_ROOTS
 from ..errors import InputError
 from .app import ROOT_HELP, check_output_not_input, guarded, main, root_options
 
+if TYPE_CHECKING:
+    from ..tree import Tree
+    from .app import Context
 
-def _first_tree(path, obj=None):
+
+def _first_tree(path: str, obj: Context | None = None) -> Tree:
     """The first tree of a Newick or NEXUS file (a note when it holds more)."""
     from ..io import read_trees
 
@@ -26,14 +35,14 @@ def _first_tree(path, obj=None):
     return trees[0]
 
 
-def _scale_note(obj, tree, extra=""):
+def _scale_note(obj: Context, tree: Tree, extra: str = "") -> None:
     """Say on stderr when support was read on a 0-1 scale and is shown as percentages."""
     if tree.support_percent()[1]:
         obj.say("note      support values all lie within 0 to 1: read as proportions and shown as "
                 "percentages" + extra)
 
 
-def _support_digits(tree):
+def _support_digits(tree: Tree) -> int:
     """Decimals that write the tree's support values back exactly (0 to 2);
     values read from a file are written as read whatever this says."""
     s = np.asarray(tree.support, dtype=np.float64)
@@ -45,7 +54,7 @@ def _support_digits(tree):
     return 2
 
 
-def _write_tree(tree, output):
+def _write_tree(tree: Tree, output: str) -> None:
     fmt = "nexus" if output.lower().removesuffix(".gz").endswith((".nex", ".nexus")) else "newick"
     tree.write(output, format=fmt, support_digits=_support_digits(tree))
 
@@ -59,7 +68,7 @@ def _write_tree(tree, output):
               help="Root on the branch separating these taxa (a clade of the unrooted tree) from the rest.")
 @click.pass_obj
 @guarded
-def root(obj, tree_path, output, midpoint, outgroup):
+def root(obj: Context, tree_path: str, output: str, midpoint: bool, outgroup: str | None) -> None:
     """Root the first tree of TREE at its midpoint or on an outgroup.
 
     Branch lengths are split where the root falls; support stays with the
@@ -71,17 +80,17 @@ def root(obj, tree_path, output, midpoint, outgroup):
         raise InputError("give exactly one of --midpoint or --outgroup TAXON[,TAXON...]")
     check_output_not_input(output, tree_path)
     tree = _first_tree(tree_path, obj)
-    if midpoint:
-        rooted = midpoint_root(tree)
-        how = "midpoint of the longest path"
-    else:
+    if outgroup:  # exactly one of the two was given (checked above)
         rooted = outgroup_root(tree, outgroup.split(","))
         how = f"outgroup {outgroup}"
+    else:
+        rooted = midpoint_root(tree)
+        how = "midpoint of the longest path"
     _write_tree(rooted, output)
     obj.say(f"rooted    {rooted.n_leaves} taxa, {how}\nwritten   {output}")
 
 
-def _pair(paths, trees, i, j):
+def _pair(paths: Sequence[str], trees: Sequence[Tree], i: int, j: int) -> dict[str, Any]:
     from ..support import branch_score, robinson_foulds
 
     rf = robinson_foulds(trees[i], trees[j], source=paths[j])
@@ -89,7 +98,7 @@ def _pair(paths, trees, i, j):
     return rf
 
 
-def _square(labels, values, fmt):
+def _square(labels: Sequence[str], values: Any, fmt: Callable[[Any], str]) -> str:
     width = max(len(x) for x in labels)
     cells = [[fmt(v) for v in row] for row in values]
     cw = max(max(len(c) for row in cells for c in row), max(len(x) for x in labels))
@@ -105,7 +114,7 @@ def _square(labels, values, fmt):
 @click.option("--output", "-o", default="-", show_default=True, metavar="FILE", help="Where to write ('-': stdout).")
 @click.pass_obj
 @guarded
-def compare(obj, tree_files, tsv, output):
+def compare(obj: Context, tree_files: tuple[str, ...], tsv: bool, output: str) -> None:
     """Compare trees by their splits: Robinson–Foulds distance (raw and
     normalised by 2(n - 3)), splits shared and unique to each, branch score.
 
@@ -163,7 +172,7 @@ def compare(obj, tree_files, tsv, output):
               show_default=True, help="auto: a rooted tree as stored, an unrooted one midpoint-rooted first.")
 @click.pass_obj
 @guarded
-def clusters(obj, tree_path, within, output, rooting):
+def clusters(obj: Context, tree_path: str, within: float, output: str, rooting: str) -> None:
     """Group the taxa of TREE into the largest clades whose members all lie
     within path length D of each other (e.g. barcodes at a divergence
     threshold). On a UPGMA tree this is cutting the tree at height D/2.
@@ -201,7 +210,8 @@ def clusters(obj, tree_path, within, output, rooting):
               help="Colour the taxa by their group at path length D (see 'clusters').")
 @click.pass_obj
 @guarded
-def draw(obj, tree_path, output, highlight_below, no_ladderize, title, root_spec, groups_within):
+def draw(obj: Context, tree_path: str, output: str, highlight_below: float | None, no_ladderize: bool,
+         title: str | None, root_spec: str | None, groups_within: float | None) -> None:
     """Draw the first tree of TREE as a figure (SVG, PNG or PDF by suffix)."""
     from ..draw import render_tree
 
@@ -229,7 +239,8 @@ def draw(obj, tree_path, output, highlight_below, no_ladderize, title, root_spec
 @click.option("--root", "root_spec", default=None, metavar="midpoint|TAXA", help=ROOT_HELP)
 @click.pass_obj
 @guarded
-def show(obj, tree_path, plain, width, no_ladderize, root_spec):
+def show(obj: Context, tree_path: str, plain: bool, width: int | None, no_ladderize: bool,
+         root_spec: str | None) -> None:
     """Print the first tree of TREE as a text drawing, with support values
     (as percentages; support read on a 0-1 scale is multiplied by 100)."""
     from ..textdraw import text_tree

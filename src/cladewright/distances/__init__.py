@@ -10,15 +10,16 @@ from __future__ import annotations
 import math
 import numbers
 from dataclasses import dataclass
-from typing import Callable
+from typing import Any, Callable, Mapping, Optional
 
 import numpy as np
+from numpy.typing import ArrayLike, DTypeLike, NDArray
 
 from ..alignment import Alignment, distinct_sequences
-from ..choices import FREQ_MODES, GAP_MODES, SATURATED_MODES
+from ..choices import FREQ_MODES, GAP_MODES, SATURATED_MODES, Alphabet
 from ..errors import InputError, SaturationError
-from ..kernels import counts as kc
-from ..kernels.matrix import mirror_upper, pairs_before
+from .._kernels import counts as kc
+from .._kernels.matrix import mirror_upper, pairs_before
 from ..matrix import DistanceMatrix, as_float_dtype
 from ..progress import Progress
 from . import nucleotide as nuc
@@ -28,19 +29,26 @@ from .counts import iter_count_blocks, pack, state_frequencies
 __all__ = ["distance_matrix", "MODELS", "Model"]
 
 
+#: A distance formula: ``f(c, pi, gamma) -> d`` over the pair counts ``c`` of m pairs, the base
+#: frequencies ``pi`` ((4,) or (m, 4); None where the model does not use them) and the gamma shape (or None).
+Formula = Callable[[Mapping[str, NDArray[Any]], Any, Optional[float]], NDArray[np.float64]]
+
+
 @dataclass(frozen=True)
 class Model:
+    """A substitution model: its name, alphabet, formula and what the formula needs."""
+
     name: str
-    alphabet: str            # "dna" or "protein"
-    formula: Callable
-    counts: int              # which pair counts the formula needs (kernels.counts constants)
+    alphabet: Alphabet
+    formula: Formula
+    counts: int              # which pair counts the formula needs (_kernels.counts constants)
     uses_freqs: bool
     gamma: bool
     summary: str
     citation: str
 
 
-MODELS = {m.name: m for m in [
+MODELS: dict[str, Model] = {m.name: m for m in [
     Model("p", "dna", nuc.p_distance, kc.IDENTITY, False, False,
           "proportion of differing sites, uncorrected", "Jukes & Cantor 1969"),
     Model("jc69", "dna", nuc.jc69, kc.IDENTITY, False, True,
@@ -73,7 +81,7 @@ MAX_LISTED = 10
 ZERO_WHEN_IDENTICAL = frozenset(MODELS) - {"logdet"}
 
 
-def resolve_model(model, alphabet, source=None):
+def resolve_model(model: str, alphabet: str, source: str | None = None) -> Model:
     """The :class:`Model` for a name, checked against the data's alphabet.
 
     ``p`` means the protein p-distance on protein data.
@@ -93,8 +101,9 @@ def resolve_model(model, alphabet, source=None):
     return spec
 
 
-def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="alignment", *,
-                    saturated="error", weights=None, dtype=np.float64, serial=False, progress=False):
+def distance_matrix(alignment: Alignment, model: str = "k2p", gamma: float | None = None, gaps: str = "pairwise",
+                    freqs: str = "alignment", *, saturated: str = "error", weights: ArrayLike | None = None,
+                    dtype: DTypeLike = np.float64, serial: bool = False, progress: bool = False) -> DistanceMatrix:
     """All pairwise distances of an alignment under a substitution model.
 
     Parameters
@@ -210,7 +219,8 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
             _check_frequencies(spec, pi, src)
     packed = pack(patterns, weights, k, use)
     values = np.zeros((n, n), dtype=dtype)
-    undefined, empty = [], []
+    undefined: list[tuple[int, int]] = []
+    empty: list[tuple[int, int]] = []
     n_undefined = 0
     with np.errstate(all="ignore"), Progress("distances", n * (n - 1) // 2, enabled=progress) as bar:
         for r0, r1, block in iter_count_blocks(packed, kind, serial=serial):
@@ -241,8 +251,9 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
         i, j = empty[0]
         raise InputError(f"sequences {names[i]!r} and {names[j]!r} share no unambiguous site, so their "
                          "distance is undefined; remove one of them or trim the alignment", source=src)
-    info = {"model": spec.name, "gamma": gamma, "gaps": gaps, "freqs": freqs if spec.uses_freqs else None,
-            "sites_used": int(packed.n_sites), "saturated": 0, "cap": None}
+    info: dict[str, Any] = {"model": spec.name, "gamma": gamma, "gaps": gaps,
+                            "freqs": freqs if spec.uses_freqs else None, "sites_used": int(packed.n_sites),
+                            "saturated": 0, "cap": None}
     if n_undefined:
         listed = "; ".join(f"{names[i]}-{names[j]}" for i, j in undefined)
         more = f" and {n_undefined - len(undefined)} more" if n_undefined > len(undefined) else ""
@@ -261,7 +272,7 @@ def distance_matrix(alignment, model="k2p", gamma=None, gaps="pairwise", freqs="
     return DistanceMatrix._adopt(names, values, info=info)
 
 
-def _gamma_shape(gamma, source):
+def _gamma_shape(gamma: float, source: str | None) -> float:
     """The gamma shape as a float, or an error naming ``gamma``."""
     ok = isinstance(gamma, numbers.Real) and not isinstance(gamma, bool)
     if not (ok and math.isfinite(gamma) and gamma > 0):
@@ -270,7 +281,7 @@ def _gamma_shape(gamma, source):
     return float(gamma)
 
 
-def _pattern_weights(weights, n_patterns, source):
+def _pattern_weights(weights: ArrayLike, n_patterns: int, source: str | None) -> NDArray[np.int64]:
     """Whole, non-negative weights, one per site pattern (int64): a float
     weight would otherwise be truncated without a word."""
     try:
@@ -286,7 +297,7 @@ def _pattern_weights(weights, n_patterns, source):
     return w.astype(np.int64)
 
 
-def _expanded(dm, names, group):
+def _expanded(dm: DistanceMatrix, names: tuple[str, ...], group: NDArray[np.int64]) -> DistanceMatrix:
     """The matrix over every sequence from the matrix of the distinct ones."""
     values = dm.values[np.ix_(group, group)]
     info = dict(dm.info)
@@ -299,7 +310,7 @@ def _expanded(dm, names, group):
     return DistanceMatrix._adopt(names, values, info=info)  # values is a new array: no second copy
 
 
-def _count_dict(block, kind):
+def _count_dict(block: NDArray[np.int64], kind: int) -> dict[str, NDArray[Any]]:
     """Name the rows of a (n_counts, m) count block."""
     if kind == kc.FULL:
         # one pass: transposed to pairs-first and made float64 (slogdet's type) together
@@ -316,7 +327,7 @@ def _count_dict(block, kind):
     return c
 
 
-def _pairs_at(flags, r0, n, limit):
+def _pairs_at(flags: NDArray[np.bool_], r0: int, n: int, limit: int) -> list[tuple[int, int]]:
     """(i, j) of the first ``limit`` flagged pairs of a block that starts at row r0."""
     offset = pairs_before.py_func  # the same formula, on numpy arrays
     hit = np.flatnonzero(flags)[:limit] + offset(r0, n)
@@ -327,7 +338,7 @@ def _pairs_at(flags, r0, n, limit):
     return [(int(a), int(b)) for a, b in zip(i, j)]
 
 
-def _check_frequencies(spec, pi, source):
+def _check_frequencies(spec: Model, pi: NDArray[np.float64], source: str | None) -> None:
     if not np.all(np.isfinite(pi)):
         raise InputError("no unambiguous base to estimate base frequencies from; check the alignment",
                          source=source)

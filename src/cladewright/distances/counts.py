@@ -1,4 +1,6 @@
-"""Pair counts for all pairs at once, from weighted site patterns.
+"""Internal: the counting engine behind cladewright.distance_matrix.
+
+Pair counts for all pairs at once, from weighted site patterns.
 
 The patterns in use (all for pairwise deletion, the fully unambiguous ones
 for complete deletion) are packed into bit planes, grouped by weight so that
@@ -10,10 +12,13 @@ differences the model needs.
 
 from __future__ import annotations
 
-import numpy as np
+from typing import Iterator
 
-from ..kernels import counts as kc
-from ..kernels.matrix import pairs_before
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from .._kernels import counts as kc
+from .._kernels.matrix import pairs_before
 
 __all__ = ["PackedPatterns", "pack", "iter_count_blocks", "state_frequencies"]
 
@@ -27,14 +32,26 @@ class PackedPatterns:
 
     __slots__ = ("planes", "valid", "word_weight", "n_sites")
 
-    def __init__(self, planes, valid, word_weight, n_sites):
+    #: uint64 (n, words, states): bit b of word w of plane a is set when the
+    #: sequence shows state a at that packed site.
+    planes: NDArray[np.uint64]
+    #: uint64 (n, words): the sites where the sequence is unambiguous.
+    valid: NDArray[np.uint64]
+    #: int64 (words,): the weight every site of a word counts with.
+    word_weight: NDArray[np.int64]
+    #: The weighted number of sites packed.
+    n_sites: int
+
+    def __init__(self, planes: NDArray[np.uint64], valid: NDArray[np.uint64], word_weight: NDArray[np.int64],
+                 n_sites: int) -> None:
         self.planes = planes
         self.valid = valid
         self.word_weight = word_weight
         self.n_sites = n_sites
 
 
-def pack(patterns, weights, n_states, use=None):
+def pack(patterns: NDArray[np.uint8], weights: ArrayLike, n_states: int,
+         use: NDArray[np.bool_] | None = None) -> PackedPatterns:
     """Pack the patterns with nonzero weight (and ``use`` True) into planes.
 
     Parameters
@@ -70,7 +87,8 @@ def pack(patterns, weights, n_states, use=None):
     return PackedPatterns(planes, valid, word_weight, int(w.sum()))
 
 
-def iter_count_blocks(packed, kind, serial=False):
+def iter_count_blocks(packed: PackedPatterns, kind: int,
+                      serial: bool = False) -> Iterator[tuple[int, int, NDArray[np.int64]]]:
     """Yield ``(r0, r1, counts)`` for blocks of rows; ``counts[c, p]`` holds
     count ``c`` of the p-th pair (i, j), r0 <= i < r1, j > i, in row-major
     order of the upper triangle. ``serial`` keeps the counting on the
@@ -88,7 +106,9 @@ def iter_count_blocks(packed, kind, serial=False):
         yield r0, r1, buf[:, :m]
 
 
-def state_frequencies(patterns, weights, n_states, use=None, multiplicity=None):
+def state_frequencies(patterns: NDArray[np.uint8], weights: ArrayLike, n_states: int,
+                      use: NDArray[np.bool_] | None = None,
+                      multiplicity: ArrayLike | None = None) -> NDArray[np.float64]:
     """Frequencies of the unambiguous states over the patterns in use,
     weighted, pooled over all sequences; row ``i`` counts
     ``multiplicity[i]`` times (a row standing for a group of identical

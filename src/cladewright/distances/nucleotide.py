@@ -41,48 +41,60 @@ transversions and p of differences, over the shared sites:
 
 from __future__ import annotations
 
+from typing import Any, Mapping, cast
+
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from .terms import neg_log, pair_proportions
 
 __all__ = ["p_distance", "jc69", "f81", "k2p", "f84", "t92", "tn93", "logdet", "paralinear"]
 
 
-def _bases(pi):
+def _bases(pi: ArrayLike) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
     pi = np.asarray(pi, dtype=np.float64)
     return pi[..., 0], pi[..., 1], pi[..., 2], pi[..., 3]
 
 
-def p_distance(c, pi=None, gamma=None):
+def _transitions(c: Mapping[str, NDArray[Any]]) -> tuple[NDArray[np.float64], NDArray[np.float64],
+                                                         NDArray[np.float64]]:
+    """p1, p2 and q of :func:`pair_proportions`, for the counts of the models
+    that read transitions (``ag`` and ``ct`` are there, so none is None)."""
+    _, _, p1, p2, q = pair_proportions(c)
+    return cast(NDArray[np.float64], p1), cast(NDArray[np.float64], p2), cast(NDArray[np.float64], q)
+
+
+def p_distance(c: Mapping[str, NDArray[Any]], pi: ArrayLike | None = None,
+               gamma: float | None = None) -> NDArray[np.float64]:
     """Proportion of differing sites among the shared ones."""
     return pair_proportions(c)[1]
 
 
-def _equal_input(p, b, gamma):
+def _equal_input(p: NDArray[np.float64], b: float | NDArray[np.float64], gamma: float | None) -> NDArray[np.float64]:
     return b * neg_log(p / b, gamma)
 
 
-def jc69(c, pi=None, gamma=None):
+def jc69(c: Mapping[str, NDArray[Any]], pi: ArrayLike | None = None, gamma: float | None = None) -> NDArray[np.float64]:
     """JC69 (Jukes & Cantor 1969); gamma form of Jin & Nei (1990)."""
     return _equal_input(pair_proportions(c)[1], 0.75, gamma)
 
 
-def f81(c, pi, gamma=None):
+def f81(c: Mapping[str, NDArray[Any]], pi: ArrayLike, gamma: float | None = None) -> NDArray[np.float64]:
     """F81 (Felsenstein 1981): the equal-input correction with B = 1 - sum pi^2."""
     b = 1.0 - np.sum(np.asarray(pi, dtype=np.float64) ** 2, axis=-1)
     return _equal_input(pair_proportions(c)[1], b, gamma)
 
 
-def k2p(c, pi=None, gamma=None):
+def k2p(c: Mapping[str, NDArray[Any]], pi: ArrayLike | None = None, gamma: float | None = None) -> NDArray[np.float64]:
     """K2P (Kimura 1980); gamma form of Jin & Nei (1990)."""
-    _, _, p1, p2, q = pair_proportions(c)
+    p1, p2, q = _transitions(c)
     ts = p1 + p2
     return 0.5 * neg_log(2.0 * ts + q, gamma) + 0.25 * neg_log(2.0 * q, gamma)
 
 
-def f84(c, pi, gamma=None):
+def f84(c: Mapping[str, NDArray[Any]], pi: ArrayLike, gamma: float | None = None) -> NDArray[np.float64]:
     """F84 (Felsenstein & Churchill 1996, the model of 1984)."""
-    _, _, p1, p2, q = pair_proportions(c)
+    p1, p2, q = _transitions(c)
     ts = p1 + p2
     a_, c_, g_, t_ = _bases(pi)
     pr, py = a_ + g_, c_ + t_
@@ -94,9 +106,9 @@ def f84(c, pi, gamma=None):
     return 2.0 * big_a * neg_log(y1, None) - 2.0 * (big_a - big_b - big_c) * neg_log(y2, None)
 
 
-def t92(c, pi, gamma=None):
+def t92(c: Mapping[str, NDArray[Any]], pi: ArrayLike, gamma: float | None = None) -> NDArray[np.float64]:
     """T92 (Tamura 1992), theta the G+C content of ``pi``."""
-    _, _, p1, p2, q = pair_proportions(c)
+    p1, p2, q = _transitions(c)
     ts = p1 + p2
     _, c_, g_, _ = _bases(pi)
     theta = c_ + g_
@@ -108,9 +120,9 @@ def t92(c, pi, gamma=None):
     return first + 0.5 * (1.0 - h) * neg_log(2.0 * q, None)
 
 
-def tn93(c, pi, gamma=None):
+def tn93(c: Mapping[str, NDArray[Any]], pi: ArrayLike, gamma: float | None = None) -> NDArray[np.float64]:
     """TN93 (Tamura & Nei 1993), with its gamma form."""
-    _, _, p1, p2, q = pair_proportions(c)
+    p1, p2, q = _transitions(c)
     a_, c_, g_, t_ = _bases(pi)
     pr, py = a_ + g_, c_ + t_
     y1 = pr * p1 / (2.0 * a_ * g_) + q / (2.0 * pr)
@@ -121,7 +133,7 @@ def tn93(c, pi, gamma=None):
             + 2.0 * k3 * neg_log(y3, gamma))
 
 
-def _logdet_parts(c):
+def _logdet_parts(c: Mapping[str, NDArray[Any]]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     full = np.asarray(c["full"], dtype=np.float64)
     total = full.sum(axis=(1, 2))
     f = full / total[:, None, None]
@@ -130,13 +142,15 @@ def _logdet_parts(c):
     return f, logabsdet
 
 
-def logdet(c, pi=None, gamma=None):
+def logdet(c: Mapping[str, NDArray[Any]], pi: ArrayLike | None = None,
+           gamma: float | None = None) -> NDArray[np.float64]:
     """LogDet (Lockhart et al. 1994): zero for identical sequences with equal base frequencies."""
     _, ld = _logdet_parts(c)
     return -0.25 * ld - np.log(4.0)
 
 
-def paralinear(c, pi=None, gamma=None):
+def paralinear(c: Mapping[str, NDArray[Any]], pi: ArrayLike | None = None,
+               gamma: float | None = None) -> NDArray[np.float64]:
     """Paralinear distance (Lake 1994)."""
     f, ld = _logdet_parts(c)
     rows = f.sum(axis=2)

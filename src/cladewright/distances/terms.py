@@ -1,4 +1,6 @@
-"""The terms the distance formulas share (:mod:`.nucleotide`, :mod:`.protein`):
+"""Internal: terms shared by the distance formulas.
+
+The terms the distance formulas share (:mod:`.nucleotide`, :mod:`.protein`):
 proportions of differing sites among the shared ones, and the log correction
 -ln(1 - y) with its gamma form.
 
@@ -9,12 +11,15 @@ Jin, L. & Nei, M. (1990) Mol. Biol. Evol. 7:82–102 (gamma forms).
 
 from __future__ import annotations
 
+from typing import Any, Mapping
+
 import numpy as np
+from numpy.typing import NDArray
 
 __all__ = ["neg_log", "pair_proportions"]
 
 
-def neg_log(y, gamma):
+def neg_log(y: NDArray[np.float64], gamma: float | None) -> NDArray[np.float64]:
     """-ln(1 - y), or its gamma form a [(1 - y)^(-1/a) - 1]; NaN where y >= 1.
 
     The gamma form is a expm1(x) with x = -ln(1 - y) / a, which tends to
@@ -54,7 +59,9 @@ def neg_log(y, gamma):
     return np.where(small, plain * (1.0 + x * (0.5 + x / 6.0)), gamma * np.expm1(x))
 
 
-def pair_proportions(c):
+def pair_proportions(c: Mapping[str, NDArray[Any]]) -> tuple[NDArray[np.float64], NDArray[np.float64],
+                                                        NDArray[np.float64] | None, NDArray[np.float64] | None,
+                                                        NDArray[np.float64] | None]:
     """Proportions over the shared sites of each pair.
 
     Parameters

@@ -18,10 +18,15 @@ loading the readers above them.
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:  # for type checkers only: at run time the readers load on first use
+    from .readers import parse_newick, parse_nexus_trees, read_alignment, read_distance_matrix, read_trees
+
 __all__ = ["read_trees", "read_alignment", "read_distance_matrix", "parse_newick", "parse_nexus_trees"]
 
 
-def __getattr__(name):
+def __getattr__(name: str) -> Any:
     if name in __all__:
         from . import readers
 
@@ -29,5 +34,5 @@ def __getattr__(name):
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
-def __dir__():
+def __dir__() -> list[str]:
     return sorted(set(globals()) | set(__all__))

@@ -1,4 +1,6 @@
-"""Aligned sequence text: the format told from the content, and aligned FASTA.
+"""Internal: the aligned FASTA parser behind cladewright.read_alignment.
+
+Aligned sequence text: the format told from the content, and aligned FASTA.
 
 A text starting with ``>`` is FASTA; one starting with ``#NEXUS`` is NEXUS,
 whose DATA or CHARACTERS block is read by
@@ -10,13 +12,16 @@ checks on states and lengths are the caller's
 
 from __future__ import annotations
 
+from typing import Any
+
+from ..choices import Alphabet
 from ..errors import InputError
 from .nexus_alignment import parse_nexus_matrix
 
 __all__ = ["parse_alignment", "parse_fasta"]
 
 
-def parse_alignment(text, source):
+def parse_alignment(text: str, source: str | None) -> tuple[list[str], list[str], Alphabet | None]:
     """Names and sequences of an aligned FASTA or NEXUS text.
 
     Parameters
@@ -49,7 +54,7 @@ def parse_alignment(text, source):
         names, seqs = parse_fasta(text, source)
         return names, seqs, None
     if stripped[:6].upper() == "#NEXUS":
-        info = {}
+        info: dict[str, Any] = {}
         names, seqs = parse_nexus_matrix(text, source, info)
         return names, seqs, info.get("alphabet")
     first = stripped.splitlines()[0][:40]
@@ -57,8 +62,8 @@ def parse_alignment(text, source):
                      "(records starting with '>') or NEXUS (starting with '#NEXUS')", source=source)
 
 
-def _check_unique(names, lines, source):
-    seen = {}
+def _check_unique(names: list[str], lines: list[int], source: str | None) -> None:
+    seen: dict[str, int] = {}
     for name, line in zip(names, lines):
         if name in seen:
             raise InputError(f"line {line}: sequence name {name!r} was already used on line {seen[name]}; "
@@ -66,21 +71,23 @@ def _check_unique(names, lines, source):
         seen[name] = line
 
 
-def parse_fasta(text, source):
+def parse_fasta(text: str, source: str | None) -> tuple[list[str], list[str]]:
     """Records of an aligned FASTA text. A record's name is the first word
     of its header line (common practice); spaces inside sequence lines are
     ignored."""
-    names, seqs, lines = [], [], []
-    chunks = None
+    names: list[str] = []
+    seqs: list[str] = []
+    lines: list[int] = []
+    chunks: list[str] | None = None
     for lineno, line in enumerate(text.split("\n"), start=1):
         if line.startswith(">"):
-            name = line[1:].strip().split(None, 1)
-            if not name:
+            words = line[1:].strip().split(None, 1)
+            if not words:
                 raise InputError(f"line {lineno}: a '>' header with no name; give each sequence a name",
                                  source=source)
             if chunks is not None:
                 seqs.append("".join(chunks))
-            names.append(name[0])
+            names.append(words[0])
             lines.append(lineno)
             chunks = []
         elif line.strip():
@@ -90,9 +97,9 @@ def parse_fasta(text, source):
             chunks.append("".join(line.split()))
     if chunks is not None:
         seqs.append("".join(chunks))
-    for name, seq, line in zip(names, seqs, lines):
+    for name, seq, at in zip(names, seqs, lines):
         if not seq:
-            raise InputError(f"line {line}: sequence {name!r} is empty; remove the record or add its sequence",
+            raise InputError(f"line {at}: sequence {name!r} is empty; remove the record or add its sequence",
                              source=source)
     _check_unique(names, lines, source)
     return names, seqs

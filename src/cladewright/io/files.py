@@ -1,4 +1,6 @@
-"""Reading input files: plain, gzip-compressed (RFC 1952) or standard
+"""Internal: the input side of the readers (cladewright.read_alignment and kin).
+
+Reading input files: plain, gzip-compressed (RFC 1952) or standard
 input, decoded as UTF-8 text with its line endings made plain.
 
 Writing outputs (atomically, so that a failed run never leaves a partial
@@ -29,7 +31,7 @@ _UTF16_32_BOMS = ((b"\xff\xfe\x00\x00", "UTF-32"), (b"\x00\x00\xfe\xff", "UTF-32
                   (b"\xff\xfe", "UTF-16"), (b"\xfe\xff", "UTF-16"))
 
 
-def read_bytes(path):
+def read_bytes(path: str | os.PathLike[str]) -> bytes:
     """The bytes of ``path`` (``-`` for standard input), gunzipped when the
     content starts with the gzip magic number (RFC 1952).
 
@@ -72,7 +74,7 @@ def read_bytes(path):
     return data
 
 
-def read_text(path):
+def read_text(path: str | os.PathLike[str]) -> str:
     """The text of ``path`` decoded as UTF-8, with Windows (CRLF) and old
     Mac (CR) line endings made plain.
 

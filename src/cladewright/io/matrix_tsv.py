@@ -1,4 +1,6 @@
-"""The labelled TSV form of a distance matrix, as text and plain values.
+"""Internal: the TSV format behind cladewright.read_distance_matrix and DistanceMatrix.write.
+
+The labelled TSV form of a distance matrix, as text and plain values.
 
 The first row is an empty cell followed by the names, then one row per name,
 its name first, tab-separated. Values are written with ``repr`` precision so
@@ -11,12 +13,27 @@ from __future__ import annotations
 
 import io
 import re
+from collections.abc import Sequence
+from typing import Protocol
 
 import numpy as np
+from numpy.typing import NDArray
 
 from ..errors import InputError
 
-__all__ = ["format_distance_tsv", "parse_distance_tsv"]
+__all__ = ["MatrixLike", "format_distance_tsv", "parse_distance_tsv"]
+
+
+class MatrixLike(Protocol):
+    """What the writer reads of a distance matrix: the attributes of
+    :class:`~cladewright.matrix.DistanceMatrix`, as a structural type (PEP
+    544), so that this module names no matrix class."""
+
+    @property
+    def names(self) -> Sequence[str]: ...
+
+    @property
+    def values(self) -> NDArray[np.floating]: ...
 
 # The reader splits lines at \n (after turning \r\n and \r into \n) and
 # cells at tabs, and refuses NUL (binary); every other character survives a
@@ -30,7 +47,7 @@ _CELL = re.compile(_NUM, re.I)
 _ROW_CELLS = re.compile(rf"(?:\t{_NUM})*", re.I)
 
 
-def format_distance_tsv(matrix):
+def format_distance_tsv(matrix: MatrixLike) -> str:
     """The labelled TSV text of a distance matrix.
 
     Parameters
@@ -60,7 +77,7 @@ def format_distance_tsv(matrix):
     return buf.getvalue()
 
 
-def parse_distance_tsv(text, source):
+def parse_distance_tsv(text: str, source: str | None) -> tuple[list[str], NDArray[np.float64], list[int]]:
     r"""Names and values of a labelled TSV distance matrix.
 
     The first line is an empty cell and the taxon names, tab-separated; then
@@ -104,7 +121,7 @@ def parse_distance_tsv(text, source):
         if not name:
             raise InputError(f"line {head_line}, column {c + 2}: an empty taxon name; give every column a name "
                              "(and no tab at the end of the line)", source=source)
-    first = {}
+    first: dict[str, int] = {}
     for c, name in enumerate(names):
         if name in first:
             raise InputError(f"line {head_line}, columns {first[name] + 2} and {c + 2}: taxon {name!r} appears "

@@ -1,4 +1,6 @@
-"""Reading trees in Newick format into plain arrays.
+"""Internal: the Newick parser behind cladewright.read_trees and cladewright.parse_newick.
+
+Reading trees in Newick format into plain arrays.
 
 Reading follows the Newick format (the trade's de facto standard, 1986
 informal specification): labels may be quoted with ``'...'`` (``''`` for an
@@ -18,9 +20,10 @@ from __future__ import annotations
 
 import math
 import re
-from typing import NamedTuple
+from typing import NamedTuple, NoReturn, Union, cast
 
 import numpy as np
+from numpy.typing import NDArray
 
 from ..errors import InputError
 
@@ -62,17 +65,22 @@ class TreeRecord(NamedTuple):
         Where the tree starts in the text, for messages.
     """
 
-    parent: np.ndarray
-    length: np.ndarray
-    leaf_names: tuple
-    support: np.ndarray
-    labels: list
-    support_text: list
+    parent: NDArray[np.int64]
+    length: NDArray[np.float64]
+    leaf_names: tuple[str, ...]
+    support: NDArray[np.float64]
+    labels: list[str | None]
+    support_text: list[str | None]
     rooted: bool
     offset: int
 
 
-def text_position(text, pos):
+# A node's label while a tree is read: a name, a (support value, its text)
+# pair, or None.
+_Label = Union[str, tuple[float, str], None]
+
+
+def text_position(text: str, pos: int) -> str:
     """'line L, column C' of offset ``pos`` of ``text`` (both 1-based).
 
     Parameters
@@ -89,7 +97,7 @@ def text_position(text, pos):
     return f"line {line}, column {col}"
 
 
-def read_number(word):
+def read_number(word: str) -> float | None:
     """float of ``word`` if it is a plain, finite decimal number, else None.
 
     Parameters
@@ -107,7 +115,7 @@ def read_number(word):
     return None
 
 
-def parse_newick_records(text, source=None):
+def parse_newick_records(text: str, source: str | None = None) -> list[TreeRecord]:
     """All trees of a Newick text, as plain values.
 
     Parameters
@@ -138,7 +146,8 @@ def parse_newick_records(text, source=None):
     return records
 
 
-def parse_tree_span(text, start, end, source=None, expect_one=False):
+def parse_tree_span(text: str, start: int, end: int, source: str | None = None,
+                    expect_one: bool = False) -> list[TreeRecord]:
     """The trees of ``text[start:end]`` as plain values; positions in errors
     refer to ``text`` (a NEXUS TREE command is such a span).
 
@@ -162,19 +171,23 @@ def parse_tree_span(text, start, end, source=None, expect_one=False):
     InputError
         On malformed text, naming the line and column and the fix.
     """
-    trees = []
+    trees: list[TreeRecord] = []
 
-    def fail(pos, what):
+    def fail(pos: int, what: str) -> NoReturn:
         raise InputError(f"{text_position(text, pos)}: {what}", source=source)
 
     # per-tree state; node data indexed by creation order
-    par, lab, ln, internal, npos = [], [], [], [], []
-    stack = []
+    par: list[int] = []
+    lab: list[_Label] = []
+    ln: list[float] = []
+    internal: list[bool] = []
+    npos: list[int] = []
+    stack: list[int] = []
     state = 0  # 0 tree start, 1 expect node, 2 after node, 3 expect length, 4 after length
-    rooted_flag = None
+    rooted_flag: bool | None = None
     cur = -1
     has_label = False
-    tree_start = None
+    tree_start: int | None = None
     last_pos = start
     for mt in _TOKEN.finditer(text, start, end):
         kind = mt.lastgroup
@@ -285,25 +298,27 @@ def parse_tree_span(text, start, end, source=None, expect_one=False):
             state, rooted_flag, cur, tree_start = 0, None, -1, None
     if state != 0:
         if stack:
+            assert tree_start is not None  # set where the tree's first '(' was read
             fail(tree_start, f"unbalanced parentheses: {len(stack)} '(' not closed at the end of the text; "
                              "add the missing ')' and ';'")
         fail(last_pos, "the tree does not end with ';'; add ';' after the tree")
     return trees
 
 
-def _make_record(text, par, lab, ln, internal, npos, rooted_flag, source):
+def _make_record(text: str, par: list[int], lab: list[_Label], ln: list[float], internal: list[bool],
+                 npos: list[int], rooted_flag: bool | None, source: str | None) -> TreeRecord:
     """The tree's nodes renumbered (leaves first, in the order read) as a TreeRecord."""
-    internal = np.array(internal, dtype=bool)
-    total = internal.size
-    leaf_tmp = np.flatnonzero(~internal)
-    int_tmp = np.flatnonzero(internal)
+    is_internal = np.array(internal, dtype=bool)
+    total = is_internal.size
+    leaf_tmp = np.flatnonzero(~is_internal)
+    int_tmp = np.flatnonzero(is_internal)
     n = leaf_tmp.size
     new_id = np.empty(total, np.int64)
     new_id[leaf_tmp] = np.arange(n)
     new_id[int_tmp] = n + np.arange(int_tmp.size)
-    names = [lab[i] for i in leaf_tmp.tolist()]
+    names = cast("list[str]", [lab[i] for i in leaf_tmp.tolist()])  # a leaf's label is its name
     if len(set(names)) != n:
-        first = {}
+        first: dict[_Label, int] = {}
         for i in leaf_tmp.tolist():
             if lab[i] in first:
                 earlier = text_position(text, npos[first[lab[i]]])
@@ -318,8 +333,8 @@ def _make_record(text, par, lab, ln, internal, npos, rooted_flag, source):
     length = np.empty(total, np.float64)
     length[new_id] = np.array(ln, dtype=np.float64)
     support = np.full(total, np.nan)
-    labels = [None] * total
-    texts = [None] * total
+    labels: list[str | None] = [None] * total
+    texts: list[str | None] = [None] * total
     base = n
     for j, i in enumerate(int_tmp.tolist()):
         x = lab[i]

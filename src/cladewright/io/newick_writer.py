@@ -1,4 +1,6 @@
-"""Writing trees in Newick format.
+"""Internal: the Newick writer behind Tree.to_newick and Tree.write.
+
+Writing trees in Newick format.
 
 Every label that would not read back exactly is quoted; a support value
 read from a file and not replaced since is written as it was read. The
@@ -14,19 +16,62 @@ Newick format: the trade's de facto standard (1986 informal specification).
 from __future__ import annotations
 
 import re
+from collections.abc import Sequence
+from typing import Protocol
 
 import numpy as np
+from numpy.typing import NDArray
 
 from .newick import read_number
 
-__all__ = ["format_newick", "quote_label", "format_length", "format_support"]
+__all__ = ["TreeLike", "format_newick", "quote_label", "format_length", "format_support"]
+
+
+class TreeLike(Protocol):
+    """What the writers read of a tree: the attributes of
+    :class:`~cladewright.tree.Tree`, as a structural type (PEP 544), so that
+    the writers name no tree class."""
+
+    @property
+    def n_leaves(self) -> int: ...
+
+    @property
+    def n_nodes(self) -> int: ...
+
+    @property
+    def root(self) -> int: ...
+
+    @property
+    def rooted(self) -> bool: ...
+
+    @property
+    def leaf_names(self) -> Sequence[str]: ...
+
+    @property
+    def parent(self) -> NDArray[np.int64]: ...
+
+    @property
+    def length(self) -> NDArray[np.float64]: ...
+
+    @property
+    def support(self) -> NDArray[np.float64]: ...
+
+    @property
+    def labels(self) -> Sequence[str | None]: ...
+
+    @property
+    def support_text(self) -> Sequence[str | None] | None: ...
+
+    def children(self, node: int) -> NDArray[np.int64]: ...
+
+    def preorder(self) -> NDArray[np.int64]: ...
 
 # Characters that cannot stand in an unquoted label (whitespace is tested
 # separately); '_' is here because a reader turns it into a space.
 _NEEDS_QUOTES = re.compile(r"[\s()\[\]':;,_]|[^\x21-\x7e]")
 
 
-def quote_label(label, numeric_quoted=False):
+def quote_label(label: str, numeric_quoted: bool = False) -> str:
     """``label`` as a Newick token: bare if it reads back unchanged, else in
     single quotes with inner quotes doubled.
 
@@ -42,7 +87,7 @@ def quote_label(label, numeric_quoted=False):
     return label
 
 
-def format_length(x, digits=None):
+def format_length(x: float, digits: int | None = None) -> str:
     """Branch length text: ``repr`` (exact round trip) or ``digits``
     significant digits."""
     x = float(x)
@@ -51,12 +96,12 @@ def format_length(x, digits=None):
     return format(x, f".{int(digits)}g")
 
 
-def format_support(x, support_digits=0):
+def format_support(x: float, support_digits: int = 0) -> str:
     """Support text: integer percentage, or ``support_digits`` decimals."""
     return format(float(x), f".{int(support_digits)}f")
 
 
-def _kept_text(tree):
+def _kept_text(tree: TreeLike) -> list[str | None]:
     """Per node, the text a support value was read from while it still reads
     as that value (else None): support a tool moved but did not compute is
     written back exactly as it was read."""
@@ -64,14 +109,15 @@ def _kept_text(tree):
     if texts is None:
         return [None] * tree.n_nodes
     support = tree.support.tolist()
-    out = [None] * tree.n_nodes
+    out: list[str | None] = [None] * tree.n_nodes
     for v, t in enumerate(texts):
         if t is not None and read_number(t) == support[v]:
             out[v] = t
     return out
 
 
-def _node_texts(tree, digits, support_digits, leaf_text=None):
+def _node_texts(tree: TreeLike, digits: int | None, support_digits: int,
+                leaf_text: Sequence[str] | None = None) -> list[str]:
     """Text after each node's subtree: its label or support and ':length'."""
     n, m = tree.n_leaves, tree.n_nodes
     length, support, labels = tree.length.tolist(), tree.support.tolist(), tree.labels
@@ -84,8 +130,8 @@ def _node_texts(tree, digits, support_digits, leaf_text=None):
             s = quote_label(names[v]) if leaf_text is None else names[v]
         elif v != root and support[v] == support[v]:
             s = kept[v] or format_support(support[v], support_digits)
-        elif labels[v] is not None:
-            s = quote_label(labels[v], numeric_quoted=True)
+        elif (label := labels[v]) is not None:
+            s = quote_label(label, numeric_quoted=True)
         else:
             s = ""
         x = length[v]
@@ -95,7 +141,7 @@ def _node_texts(tree, digits, support_digits, leaf_text=None):
     return out
 
 
-def _root_comment(tree):
+def _root_comment(tree: TreeLike) -> str:
     """'[&R] '/'[&U] ' when a reader's default (rooted iff the root has two
     children) would get the rooting wrong, else ''."""
     two = tree.n_nodes > 1 and tree.children(tree.root).size == 2
@@ -106,7 +152,7 @@ def _root_comment(tree):
     return ""
 
 
-def _child_table(tree):
+def _child_table(tree: TreeLike) -> tuple[list[int], list[int]]:
     """(ptr, kids) as lists: the children of v are kids[ptr[v]:ptr[v+1]], in
     the tree's sibling order (a preorder lists each node's children in that
     order, so a stable sort of it by parent gives them)."""
@@ -118,7 +164,8 @@ def _child_table(tree):
     return ptr.tolist(), kids.tolist()
 
 
-def format_newick(tree, digits=None, support_digits=0, leaf_text=None, root_comment=None):
+def format_newick(tree: TreeLike, digits: int | None = None, support_digits: int = 0,
+                  leaf_text: Sequence[str] | None = None, root_comment: str | None = None) -> str:
     """One tree as a Newick line ending in ``";\\n"``.
 
     Parameters

@@ -1,4 +1,6 @@
-"""Reading and writing the TREES block of NEXUS files.
+"""Internal: the NEXUS TREES block behind cladewright.read_trees and Tree.write.
+
+Reading and writing the TREES block of NEXUS files.
 
 NEXUS: Maddison, Swofford & Maddison (1997) Syst. Biol. 46:590-621. Keywords
 are case-insensitive; a TREES block may carry a TRANSLATE table mapping the
@@ -15,10 +17,15 @@ object with the attributes of :class:`~cladewright.tree.Tree`.
 from __future__ import annotations
 
 import re
+from collections.abc import Iterable, Iterator, Sequence
+from typing import Optional, cast
 
 from ..errors import InputError
-from .newick import parse_tree_span, text_position
-from .newick_writer import format_newick
+from .newick import TreeRecord, parse_tree_span, text_position
+from .newick_writer import TreeLike, format_newick
+
+# A token: (kind, text, start, end) in the text.
+_Token = tuple[Optional[str], str, int, int]
 
 __all__ = ["parse_nexus_records", "format_nexus", "quote_nexus"]
 
@@ -41,7 +48,7 @@ _NEXUS_QUOTE = re.compile(r"[\s()\[\]{}/\\,;:=*'\"`+<>\-_]|[^\x21-\x7e]")
 _WHOLE = re.compile(r"[0-9]+")
 
 
-def _tokens(text, source):
+def _tokens(text: str, source: str | None) -> Iterator[_Token]:
     """(kind, token, start, end) for every token, comments and blanks dropped."""
     for mt in _TOKEN.finditer(text):
         kind = mt.lastgroup
@@ -60,16 +67,16 @@ def _tokens(text, source):
         yield kind, mt.group(), mt.start(), mt.end()
 
 
-def _word(kind, tok):
+def _word(kind: str | None, tok: str) -> str:
     """Value of a NEXUS word: quotes removed ('' -> '), or '_' read as space."""
     if kind == "quoted":
         return tok[1:-1].replace("''", "'")
     return tok.replace("_", " ")
 
 
-def _commands(text, source):
+def _commands(text: str, source: str | None) -> Iterator[list[_Token]]:
     """Commands as lists of tokens, each list ending with its ';' token."""
-    cmd = []
+    cmd: list[_Token] = []
     for t in _tokens(text, source):
         cmd.append(t)
         if t[0] == "punct" and t[1] == ";":
@@ -80,7 +87,7 @@ def _commands(text, source):
                          source=source)
 
 
-def parse_nexus_records(text, source=None):
+def parse_nexus_records(text: str, source: str | None = None) -> list[TreeRecord]:
     """Trees of every TREES block of a NEXUS text, as plain values.
 
     Parameters
@@ -111,11 +118,11 @@ def parse_nexus_records(text, source=None):
     start = text.upper().index("#NEXUS") + 6
     # blank out the header but keep offsets, so line/column numbers hold
     body = re.sub(r"[^\n]", " ", text[:start]) + text[start:]
-    trees = []
-    taxlabels = []
-    block = None
+    trees: list[TreeRecord] = []
+    taxlabels: list[str] = []
+    block: str | None = None
     block_pos = 0
-    translate = None
+    translate: dict[str, str] | None = None
     for cmd in _commands(body, source):
         kind, tok, pos, _ = cmd[0]
         key = tok.upper() if kind == "word" else tok
@@ -157,10 +164,10 @@ def parse_nexus_records(text, source=None):
     return trees
 
 
-def _translate(text, cmd, source):
+def _translate(text: str, cmd: list[_Token], source: str | None) -> dict[str, str]:
     """The TRANSLATE table as a dict token -> name."""
     items = cmd[1:-1]
-    table = {}
+    table: dict[str, str] = {}
     i = 0
     while i < len(items):
         if i + 1 >= len(items) or items[i][0] == "punct" or items[i + 1][0] == "punct":
@@ -180,7 +187,8 @@ def _translate(text, cmd, source):
     return table
 
 
-def _rename(tree, translate, taxlabels, text, pos, source):
+def _rename(tree: TreeRecord, translate: dict[str, str] | None, taxlabels: list[str], text: str, pos: int,
+            source: str | None) -> TreeRecord:
     """The tree record with leaf tokens replaced by taxon names."""
     names = list(tree.leaf_names)
     if translate:
@@ -193,14 +201,17 @@ def _rename(tree, translate, taxlabels, text, pos, source):
     else:
         return tree
     if len(set(names)) != len(names):
-        seen = set()
-        dup = next(x for x in names if x in seen or seen.add(x))
+        seen: set[str] = set()
+        for dup in names:  # the first name met a second time
+            if dup in seen:
+                break
+            seen.add(dup)
         raise InputError(f"{text_position(text, pos)}: taxon {dup!r} appears twice in this tree after TRANSLATE; "
                          "fix the TRANSLATE table or the tree", source=source)
     return tree._replace(leaf_names=tuple(names))
 
 
-def quote_nexus(word):
+def quote_nexus(word: str) -> str:
     """``word`` as a NEXUS token: bare if safe, else in single quotes with
     inner quotes doubled (Maddison et al. 1997)."""
     if not word or _NEXUS_QUOTE.search(word) or word.isdigit():
@@ -208,7 +219,8 @@ def quote_nexus(word):
     return word
 
 
-def format_nexus(trees, digits=None, support_digits=0, tree_names=None):
+def format_nexus(trees: TreeLike | Iterable[TreeLike], digits: int | None = None, support_digits: int = 0,
+                 tree_names: Sequence[str] | None = None) -> str:
     """Trees as a NEXUS text with a TAXA block and a TREES block.
 
     Parameters
@@ -231,13 +243,14 @@ def format_nexus(trees, digits=None, support_digits=0, tree_names=None):
     Maddison, Swofford & Maddison (1997) Syst. Biol. 46:590-621.
     """
     if hasattr(trees, "leaf_names"):
-        trees = [trees]
-    trees = list(trees)
+        trees = [cast(TreeLike, trees)]
+    trees = list(cast("Iterable[TreeLike]", trees))
     if tree_names is None:
         tree_names = [f"tree{i + 1}" for i in range(len(trees))]
     elif len(tree_names) != len(trees):
         raise ValueError("give one tree name per tree")
-    taxa, index = [], {}
+    taxa: list[str] = []
+    index: dict[str, int] = {}
     for t in trees:
         for x in t.leaf_names:
             if x not in index:

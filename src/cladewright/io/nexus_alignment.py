@@ -1,4 +1,6 @@
-"""The MATRIX of a NEXUS DATA or CHARACTERS block (Maddison, Swofford &
+"""Internal: the NEXUS alignment parser behind cladewright.read_alignment.
+
+The MATRIX of a NEXUS DATA or CHARACTERS block (Maddison, Swofford &
 Maddison 1997. Syst. Biol. 46:590-621) as names and sequences; encoding and
 the checks on states and lengths are the caller's
 (:func:`cladewright.alignment.encode`)."""
@@ -6,6 +8,8 @@ the checks on states and lengths are the caller's
 from __future__ import annotations
 
 import re
+from collections.abc import Iterator
+from typing import Any
 
 import numpy as np
 
@@ -18,7 +22,7 @@ _POLYMORPHISM = re.compile(r"\{[^}]*\}|\([^)]*\)")
 _WHOLE = re.compile(r"[0-9]+")
 
 
-def _tokens(text, start, source):
+def _tokens(text: str, start: int, source: str | None) -> Iterator[tuple[str, int]]:
     """(token, line) pairs from ``start``; comments dropped, newlines kept as '\\n'."""
     line = text.count("\n", 0, start) + 1
     for m in _TOKEN.finditer(text, start):
@@ -37,7 +41,7 @@ def _tokens(text, start, source):
         line += tok.count("\n")
 
 
-def _unquote(tok):
+def _unquote(tok: str) -> str:
     if len(tok) >= 2 and tok[0] == tok[-1] == "'":
         return tok[1:-1].replace("''", "'")
     if len(tok) >= 2 and tok[0] == tok[-1] == '"':
@@ -47,7 +51,8 @@ def _unquote(tok):
     return tok
 
 
-def parse_nexus_matrix(text, source, info=None):
+def parse_nexus_matrix(text: str, source: str | None,
+                       info: dict[str, Any] | None = None) -> tuple[list[str], list[str]]:
     """Names and sequences from the MATRIX of the one DATA or CHARACTERS block.
 
     Parameters
@@ -79,10 +84,10 @@ def parse_nexus_matrix(text, source, info=None):
     ----------
     Maddison, Swofford & Maddison (1997) Syst. Biol. 46:590-621.
     """
-    block = None        # the name of the block being read
-    data = None         # the DATA or CHARACTERS block: its settings and rows
-    taxa_blocks = []
-    command = []
+    block: str | None = None             # the name of the block being read
+    data: Any = None                     # the DATA or CHARACTERS block (a dict): its settings and rows
+    taxa_blocks: list[dict[str, Any]] = []
+    command: list[tuple[str, int]] = []
     toks = _tokens(text, 0, source)
     for tok, line in toks:
         if tok == "\n":
@@ -137,7 +142,7 @@ def parse_nexus_matrix(text, source, info=None):
     return names, seqs
 
 
-def _end_data_block(data, block, source):
+def _end_data_block(data: dict[str, Any] | None, block: str | None, source: str | None) -> None:
     if data is not None and block in ("data", "characters") and data["rows"] is None:
         raise InputError(f"line {data['line']}: the {data['name']} block has no MATRIX; add 'MATRIX' "
                          "followed by one row per sequence and ';'", source=source)
@@ -160,7 +165,7 @@ _STATE_LETTERS = {"dna": "ACGTU", "protein": "ACDEFGHIKLMNPQRSTVWY"}
 _AMBIGUITY_LETTERS = {"dna": "RYSWKMBDHVNX", "protein": "BZJXUO"}
 
 
-def _full_key(head, key):
+def _full_key(head: str, key: str) -> str:
     names = _SUBCOMMANDS[head]
     if key in names:
         return key
@@ -168,7 +173,7 @@ def _full_key(head, key):
     return hits[0] if len(hits) == 1 else key
 
 
-def _check_format(settings, where, line, source):
+def _check_format(settings: dict[str, Any], where: dict[str, int], line: int, source: str | None) -> None:
     """Refuse what this reader would misread: other data types, a transposed
     matrix, one symbol with two roles."""
     datatype = settings.get("datatype")
@@ -199,7 +204,7 @@ def _check_format(settings, where, line, source):
                 f"{role.upper()}={_ROLE_DEFAULTS[role]})", source=source)
 
 
-def _state_clash(sym, role, alphabet):
+def _state_clash(sym: str, role: str, alphabet: str | None) -> str | None:
     """What ``sym`` already means in the data, or None.
 
     MISSING may be an ambiguity code: those are read as missing data for
@@ -219,7 +224,8 @@ def _state_clash(sym, role, alphabet):
     return None
 
 
-def _read_settings(command, settings, source, where=None):
+def _read_settings(command: list[tuple[str, int]], settings: dict[str, Any], source: str | None,
+                   where: dict[str, int] | None = None) -> None:
     """Keep the DIMENSIONS and FORMAT subcommands (``key=value`` or a bare ``key``)."""
     if not command:
         return
@@ -240,7 +246,7 @@ def _read_settings(command, settings, source, where=None):
             if i + 2 >= len(words) or words[i + 2][0] == "=":
                 raise InputError(f"line {line}: {head.upper()} {word}= has no value; give one, e.g. "
                                  f"'{word}=-' or '{word}=10'", source=source)
-            value = _unquote(words[i + 2][0])
+            value: Any = _unquote(words[i + 2][0])  # made an int below for NTAX and NCHAR
             if key in _ROLES and len(value) != 1:
                 raise InputError(f"line {line}: FORMAT {word.upper()}={value!r} must be a single character; "
                                  f"write e.g. {word.upper()}=?", source=source)
@@ -257,7 +263,7 @@ def _read_settings(command, settings, source, where=None):
             i += 1
 
 
-def _read_taxa_command(command, taxa, source):
+def _read_taxa_command(command: list[tuple[str, int]], taxa: dict[str, Any], source: str | None) -> None:
     head = command[0][0].lower() if command else ""
     if head == "dimensions":
         _read_settings(command, taxa["settings"], source, taxa["where"])
@@ -266,12 +272,13 @@ def _read_taxa_command(command, taxa, source):
         taxa["labels_line"] = command[0][1]
 
 
-def _check_taxa_block(taxa, names, first_line, matrix_line, source):
+def _check_taxa_block(taxa: dict[str, Any], names: list[str], first_line: dict[str, int], matrix_line: int,
+                      source: str | None) -> None:
     """The TAXA block and the MATRIX must name the same taxa, as many."""
     ntax = taxa["settings"].get("ntax")
     labels = taxa["labels"]
     if labels is not None:
-        seen = {}
+        seen: dict[str, tuple[str, int]] = {}
         for name, line in labels:
             folded = name.lower()
             if folded in seen:
@@ -300,18 +307,18 @@ def _check_taxa_block(taxa, names, first_line, matrix_line, source):
                              f"(line {taxa['labels_line']}); add it there, or remove its row", source=source)
 
 
-def _twice(first, first_line, name):
+def _twice(first: str, first_line: int, name: str) -> str:
     if first == name:
         return f"names {name!r} twice (first on line {first_line}); give every taxon a unique name"
     return (f"names {first!r} (line {first_line}) and {name!r}, which differ only in case and so are one "
             "name in NEXUS (Maddison et al. 1997); rename one of them")
 
 
-def _role_table(settings):
+def _role_table(settings: dict[str, Any]) -> dict[int, str]:
     """One translation for MISSING, GAP and MATCHCHAR, so that swapped symbols
     (MISSING=- GAP=?) are not turned twice. Letters count in either case,
     as NEXUS symbols do unless RESPECTCASE is given."""
-    table = {}
+    table: dict[int, str] = {}
     targets = {"missing": "?", "gap": "-"}
     for role in _ROLES:
         sym = settings.get(role)
@@ -324,17 +331,23 @@ def _role_table(settings):
     return table
 
 
-def _read_matrix(toks, settings, start_line, source, ntax_line=None):
+def _read_matrix(toks: Iterator[tuple[str, int]], settings: dict[str, Any], start_line: int, source: str | None,
+                 ntax_line: int | None = None) -> tuple[list[str], list[str], dict[str, int]]:
     interleaved = str(settings.get("interleave")).lower() not in ("none", "no", "false")
-    nchar = settings.get("nchar") if isinstance(settings.get("nchar"), int) else None
+    nchar: Any = settings.get("nchar") if isinstance(settings.get("nchar"), int) else None
     ntax = settings.get("ntax") if isinstance(settings.get("ntax"), int) else None
     match = settings.get("matchchar")
     match = match if isinstance(match, str) else None
     table = _role_table(settings)
     # Without NCHAR a non-interleaved row ends at the end of its line.
     by_line = interleaved or nchar is None
-    order, seqs, first_line, sites, folded = [], {}, {}, {}, {}
-    current, at_line_start = None, True
+    order: list[str] = []
+    seqs: dict[str, list[str]] = {}
+    first_line: dict[str, int] = {}
+    sites: dict[str, int] = {}
+    folded: dict[str, str] = {}
+    current: Any = None  # the name of the row being read, once one begins
+    at_line_start = True
     for tok, line in toks:
         if tok == ";":
             break
@@ -393,7 +406,7 @@ def _read_matrix(toks, settings, start_line, source, ntax_line=None):
     return order, out, first_line
 
 
-def _apply_match(seq, ref, match):
+def _apply_match(seq: str, ref: str, match: str) -> str:
     """``seq`` with each MATCHCHAR replaced by the first row's state at that site."""
     if match not in seq:
         return seq

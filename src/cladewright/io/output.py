@@ -1,4 +1,6 @@
-"""Writing outputs atomically, so that a failed run never leaves a partial
+"""Internal: atomic writing behind every output (Tree.write, DistanceMatrix.write, render_tree, write_report).
+
+Writing outputs atomically, so that a failed run never leaves a partial
 file and never spoils one the user already had.
 
 Only a regular file is written through a temporary file and a rename: a
@@ -17,6 +19,8 @@ import re
 import stat
 import sys
 import tempfile
+from collections.abc import Iterator
+from typing import IO, Any
 
 from ..errors import InputError
 
@@ -24,10 +28,10 @@ __all__ = ["write_text_atomic", "atomic_output", "output_error", "is_char_device
 
 # errno values of a failed write that the user can fix (space, quota,
 # permissions, a read-only file system, a file too large for it).
-_OUTPUT_ERRNOS = {errno.ENOSPC: "the disk is full", errno.EDQUOT: "the disk quota is exceeded",
-                  errno.EACCES: "permission denied", errno.EPERM: "permission denied",
-                  errno.EROFS: "the file system is read-only", errno.EFBIG: "the file is too large for "
-                  "the file system"}
+_OUTPUT_ERRNOS: dict[int | None, str] = {
+    errno.ENOSPC: "the disk is full", errno.EDQUOT: "the disk quota is exceeded",
+    errno.EACCES: "permission denied", errno.EPERM: "permission denied",
+    errno.EROFS: "the file system is read-only", errno.EFBIG: "the file is too large for the file system"}
 # Names of a process's own open files: written through the open file (as the
 # shell does), not reopened, so that an append or a socket keeps working.
 _FD_NAME = re.compile(r"/(?:dev/fd|proc/self/fd)/(\d+)|/dev/std(out|err)")
@@ -37,7 +41,7 @@ _KINDS = ((stat.S_ISCHR, "character device"), (stat.S_ISBLK, "block device"), (s
           (stat.S_ISSOCK, "socket"))
 
 
-def output_error(err, path, tail="nothing was written"):
+def output_error(err: OSError, path: str | os.PathLike[str], tail: str = "nothing was written") -> InputError | None:
     """An :class:`InputError` for an OSError met while writing ``path``, or
     None when the error is not one the user can fix (then re-raise it).
 
@@ -68,7 +72,7 @@ def output_error(err, path, tail="nothing was written"):
     return InputError(f"cannot write the output ({what}); {fix}; {tail}", source=target)
 
 
-def _new_file_mode(target):
+def _new_file_mode(target: str) -> int:
     """Permission bits for the output: the existing file's, else what the
     umask gives a new file (mkstemp's 0600 would hide outputs from others)."""
     try:
@@ -85,7 +89,7 @@ def _new_file_mode(target):
     return 0o666 & ~mask
 
 
-def _fd_number(path):
+def _fd_number(path: str) -> int | None:
     """The descriptor a name such as ``/dev/fd/3`` or ``/dev/stdout`` stands for, else None."""
     found = _FD_NAME.fullmatch(path)
     if found is None:
@@ -95,7 +99,7 @@ def _fd_number(path):
     return 1 if found.group(2) == "out" else 2
 
 
-def _follow_links(target):
+def _follow_links(target: str) -> str:
     """The path a chain of symbolic links starting at ``target`` ends at.
 
     Each link is read relative to its own folder, as the kernel does; the
@@ -115,7 +119,7 @@ def _follow_links(target):
                      "at a file or choose another output path", source=target)
 
 
-def _target_kind(target, final):
+def _target_kind(target: str, final: str) -> str | None:
     """What ``final`` (``target`` with its links followed) is: None for a
     regular file or a new one, else the kind of file written directly.
 
@@ -144,7 +148,7 @@ def _target_kind(target, final):
     return next((name for test, name in _KINDS if test(info.st_mode)), "special file")
 
 
-def is_char_device(path):
+def is_char_device(path: str | os.PathLike[str]) -> bool:
     """Whether ``path`` (links followed) is a character device such as
     ``/dev/null`` or a terminal, which may be named as an input and an
     output, or as two outputs, without losing anything.
@@ -163,11 +167,11 @@ def is_char_device(path):
         return False
 
 
-def _layers(raw, mode, packed):
+def _layers(raw: IO[bytes], mode: str, packed: bool) -> list[Any]:
     """The streams over the binary file ``raw``: gzip (RFC 1952) when
     ``packed``, with no file name and modification time 0 in its header so
     that identical runs give identical bytes; then UTF-8 text for mode "w"."""
-    layers = [raw]
+    layers: list[Any] = [raw]
     if packed:
         layers.append(gzip.GzipFile(filename="", mode="wb", fileobj=raw, mtime=0))
     if "b" not in mode:
@@ -175,7 +179,7 @@ def _layers(raw, mode, packed):
     return layers
 
 
-def _finish(layers):
+def _finish(layers: list[Any]) -> None:
     """Push everything down to the bottom stream, which stays open: the
     text layer is flushed and the gzip layer closed (its trailer written)."""
     for layer in reversed(layers):
@@ -185,14 +189,14 @@ def _finish(layers):
             layer.flush()
 
 
-def _discard(layers):
+def _discard(layers: list[Any]) -> None:
     """Close every stream after a failure, quietly: the error that caused it is the one to report."""
     for layer in reversed(layers):
         with contextlib.suppress(Exception):
             layer.close()
 
 
-def _open_direct(target, final, kind):
+def _open_direct(target: str, final: str, kind: str) -> IO[bytes]:
     """A binary file writing to ``final`` as it is: the open descriptor it
     names, a stream socket, or the device or FIFO opened for writing without
     creating or truncating anything."""
@@ -218,7 +222,7 @@ def _open_direct(target, final, kind):
 
 
 @contextlib.contextmanager
-def _direct_output(target, final, kind, mode, packed):
+def _direct_output(target: str, final: str, kind: str, mode: str, packed: bool) -> Iterator[IO[Any]]:
     """Write to a device, FIFO, pipe, terminal or socket directly: it is
     never replaced or removed, and an error is one line."""
     layers = _layers(_open_direct(target, final, kind), mode, packed)
@@ -237,7 +241,7 @@ def _direct_output(target, final, kind, mode, packed):
 
 
 @contextlib.contextmanager
-def atomic_output(path, mode="w"):
+def atomic_output(path: str | os.PathLike[str], mode: str = "w") -> Iterator[IO[Any]]:
     """Open ``path`` for writing so that a failure leaves it as it was.
 
     A regular file (or a new one) is written to a temporary file in its own
@@ -294,7 +298,7 @@ def atomic_output(path, mode="w"):
         if mapped is None:
             raise
         raise mapped from None
-    layers = []
+    layers: list[Any] = []
     try:
         with contextlib.suppress(OSError):
             os.fchmod(fd, _new_file_mode(final))
@@ -319,7 +323,7 @@ def atomic_output(path, mode="w"):
         raise
 
 
-def write_text_atomic(path, text):
+def write_text_atomic(path: str | os.PathLike[str], text: str) -> None:
     """Write ``text`` to ``path`` through :func:`atomic_output`.
 
     Parameters

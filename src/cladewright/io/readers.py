@@ -24,13 +24,14 @@ from ..tree import Tree
 from .alignment_formats import parse_alignment
 from .files import read_text
 from .matrix_tsv import parse_distance_tsv
-from .newick import parse_newick_records, text_position
+from .newick import TreeRecord, parse_newick_records, text_position
 from .nexus import parse_nexus_records
 
 __all__ = ["read_alignment", "read_distance_matrix", "read_trees", "parse_newick", "parse_nexus_trees"]
 
 
-def read_alignment(path, alphabet=None, *, text=None):
+def read_alignment(path: str | os.PathLike[str], alphabet: str | None = None, *,
+                   text: str | None = None) -> Alignment:
     """Read an aligned FASTA or NEXUS file (plain or gzip-compressed).
 
     The format is detected from the content: ``>`` starts FASTA, ``#NEXUS``
@@ -74,7 +75,7 @@ def read_alignment(path, alphabet=None, *, text=None):
     return Alignment(names, states, alphabet, source=source)
 
 
-def read_distance_matrix(path, *, text=None):
+def read_distance_matrix(path: str | os.PathLike[str], *, text: str | None = None) -> DistanceMatrix:
     r"""Read a labelled TSV distance matrix.
 
     The first line is an empty cell and the taxon names, tab-separated; then
@@ -110,7 +111,7 @@ def read_distance_matrix(path, *, text=None):
     return DistanceMatrix._adopt(names, values)
 
 
-def read_trees(path):
+def read_trees(path: str | os.PathLike[str]) -> list[Tree]:
     """All trees in a Newick or NEXUS file.
 
     A file whose text starts with ``#NEXUS`` (case-insensitive, after any
@@ -137,7 +138,7 @@ def read_trees(path):
     return parse_newick(text, source=source)
 
 
-def parse_newick(text, source=None):
+def parse_newick(text: str, source: str | None = None) -> list[Tree]:
     """All trees of a Newick text.
 
     Parameters
@@ -170,7 +171,7 @@ def parse_newick(text, source=None):
     return [_tree(r, text, source) for r in parse_newick_records(text, source)]
 
 
-def parse_nexus_trees(text, source=None):
+def parse_nexus_trees(text: str, source: str | None = None) -> list[Tree]:
     """Trees of every TREES block of a NEXUS text.
 
     Parameters
@@ -192,7 +193,7 @@ def parse_nexus_trees(text, source=None):
     return [_tree(r, text, source, after_translate=True) for r in parse_nexus_records(text, source)]
 
 
-def _tree(record, text, source, after_translate=False):
+def _tree(record: TreeRecord, text: str, source: str | None, after_translate: bool = False) -> Tree:
     """A Tree of a parsed record; a record the Tree refuses becomes an
     InputError at the tree's place in the text (the parsers build valid
     arrays: this guards a reader from ever failing with anything else)."""

@@ -1,4 +1,6 @@
-"""Where replicates run: in line, on local threads, or on a Dask cluster.
+"""Internal: where the replicates of cladewright.bootstrap run (its workers= and scheduler=).
+
+Where replicates run: in line, on local threads, or on a Dask cluster.
 
 Every executor yields the same results, (index, parent, length, rooted,
 capped) per replicate, in completion order; the caller puts them back in
@@ -10,14 +12,19 @@ from __future__ import annotations
 
 import queue
 import threading
+from typing import TYPE_CHECKING, Any, Iterator, Sequence, cast
 
 from ..errors import InputError
-from .jobs import replicate_tree
+from .jobs import ReplicateJob, ReplicateResult, replicate_tree
+
+if TYPE_CHECKING:
+    from dask.distributed import Client
 
 __all__ = ["replicate_results"]
 
 
-def replicate_results(job, todo, workers, scheduler):
+def replicate_results(job: ReplicateJob, todo: Sequence[int], workers: int,
+                      scheduler: str | Client | None) -> Iterator[ReplicateResult]:
     """Yield replicate results in completion order from the chosen executor.
 
     Parameters
@@ -47,7 +54,7 @@ def replicate_results(job, todo, workers, scheduler):
     yield from _thread_results(job, todo, workers)
 
 
-def _thread_results(job, todo, workers):
+def _thread_results(job: ReplicateJob, todo: Sequence[int], workers: int) -> Iterator[ReplicateResult]:
     """Run replicates on ``workers`` threads, one replicate at a time each.
 
     Threads, not processes: the compiled counting and tree kernels release
@@ -57,13 +64,13 @@ def _thread_results(job, todo, workers):
     error or Ctrl-C the caller leaves at once, and a replicate still running
     is simply abandoned.
     """
-    tasks = queue.SimpleQueue()
+    tasks: queue.SimpleQueue[int] = queue.SimpleQueue()
     for i in todo:
         tasks.put(i)
-    results = queue.SimpleQueue()
+    results: queue.SimpleQueue[tuple[bool, Any]] = queue.SimpleQueue()
     stop = threading.Event()
 
-    def work():
+    def work() -> None:
         while not stop.is_set():
             try:
                 i = tasks.get_nowait()
@@ -92,23 +99,23 @@ def _thread_results(job, todo, workers):
         stop.set()
 
 
-def _run_chunk_with(job, indices):
+def _run_chunk_with(job: ReplicateJob, indices: Sequence[int]) -> list[ReplicateResult]:
     """The Dask task: the job arrives as a scattered future."""
     return [replicate_tree(job, i) for i in indices]
 
 
-def _chunks(indices, workers):
+def _chunks(indices: Sequence[int], workers: int) -> list[Sequence[int]]:
     """Small chunks, so that no cluster worker idles at the end of a run."""
     size = max(1, min(16, len(indices) // max(1, 4 * workers)))
     return [indices[k:k + size] for k in range(0, len(indices), size)]
 
 
-def _dask_results(job, todo, scheduler):
+def _dask_results(job: ReplicateJob, todo: Sequence[int], scheduler: str | Client) -> Iterator[ReplicateResult]:
     try:
         from dask.distributed import Client, as_completed
     except ImportError:
         raise InputError("scheduler needs Dask: install cladewright[cluster]") from None
-    client = scheduler if hasattr(scheduler, "submit") else Client(scheduler)
+    client = cast("Client", scheduler) if hasattr(scheduler, "submit") else Client(scheduler)
     try:
         job_future = client.scatter(job, broadcast=True)
         n_workers = max(1, len(client.scheduler_info().get("workers", {})))

@@ -1,4 +1,6 @@
-"""A bootstrap job: the data of one run, and how one replicate tree is built from it.
+"""Internal: the job every replicate of cladewright.bootstrap runs.
+
+A bootstrap job: the data of one run, and how one replicate tree is built from it.
 
 The job holds its own read-only copies of the data, so a replicate is built
 from this call's alignment and nothing else, in any thread or process (it
@@ -8,16 +10,24 @@ pickles as it stands for a Dask cluster). Nothing outlives a call.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
-from ..choices import PRECISIONS
+from ..choices import PRECISIONS, Alphabet
 from .weights import replicate_weights
+
+if TYPE_CHECKING:
+    from ..alignment import Alignment
+
+#: What one replicate gives back: (index, parent, length, rooted, capped), see :func:`replicate_tree`.
+ReplicateResult = tuple[int, NDArray[np.int64], NDArray[np.float64], bool, bool]
 
 __all__ = ["ReplicateJob", "replicate_tree"]
 
 
-def _frozen(array):
+def _frozen(array: ArrayLike) -> NDArray[Any]:
     out = np.array(array, copy=True)
     out.flags.writeable = False
     return out
@@ -32,19 +42,20 @@ class ReplicateJob:
     process (it pickles as it stands for a Dask cluster).
     """
 
-    names: tuple             # the distinct sequences' names (one per group of identical sequences)
-    patterns: np.ndarray
-    weights: np.ndarray
-    alphabet: str
+    names: tuple[str, ...]        # the distinct sequences' names (one per group of identical sequences)
+    patterns: NDArray[np.uint8]   # (n_distinct, P) site patterns
+    weights: NDArray[np.int64]    # (P,) sites showing each pattern
+    alphabet: Alphabet
     seed: int
-    settings: tuple   # (model, gamma, gaps, freqs, saturated, method, negative, precision)
-    source: str = "<alignment>"
-    all_names: tuple = ()    # every sequence, in the alignment's order
-    group: np.ndarray = None  # the distinct row standing for each sequence
-    multiplicity: np.ndarray = None  # how many sequences each distinct row stands for
+    settings: tuple[Any, ...]     # (model, gamma, gaps, freqs, saturated, method, negative, precision)
+    source: str                   # the alignment's file, for messages
+    all_names: tuple[str, ...]    # every sequence, in the alignment's order
+    group: NDArray[np.int64]      # the distinct row standing for each sequence
+    multiplicity: NDArray[np.int64]  # how many sequences each distinct row stands for
 
     @classmethod
-    def of(cls, alignment, distinct, group, seed, settings):
+    def of(cls, alignment: Alignment, distinct: Alignment, group: ArrayLike, seed: int,
+           settings: tuple[Any, ...]) -> ReplicateJob:
         """The job for ``alignment``, whose distinct sequences are ``distinct``.
 
         Parameters
@@ -68,7 +79,7 @@ class ReplicateJob:
                    alignment.alphabet, int(seed), tuple(settings), alignment.source, tuple(alignment.names),
                    _frozen(group), _frozen(distinct.multiplicity))
 
-    def alignment(self, index):
+    def alignment(self, index: int) -> Alignment:
         """The patterns as an Alignment for replicate ``index`` (no copy; messages name the replicate)."""
         from ..alignment import Alignment
 
@@ -82,7 +93,7 @@ class ReplicateJob:
         return aln
 
 
-def replicate_tree(job, index):
+def replicate_tree(job: ReplicateJob, index: int) -> ReplicateResult:
     """Replicate ``index``: its site weights, distances and tree, as
     (index, parent, length, rooted, capped). The counting stays on the
     calling thread: replicates are what runs side by side.

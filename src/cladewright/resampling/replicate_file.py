@@ -1,4 +1,6 @@
-"""The replicate file: one Newick tree per line, locked, recorded and resumable.
+"""Internal: the replicate file of cladewright.bootstrap (save_replicates=, resume=).
+
+The replicate file: one Newick tree per line, locked, recorded and resumable.
 
 Replicate trees are written to the replicate file in index order, one Newick
 tree per line, flushed as they complete. Beside it, ``FILE.run.json`` records
@@ -16,12 +18,19 @@ import hashlib
 import json
 import os
 import time
+from types import ModuleType
+from typing import IO, TYPE_CHECKING, Any, Iterable
 
 import numpy as np
 
 from ..errors import InputError
 from ..io.output import atomic_output, output_error
 
+if TYPE_CHECKING:
+    from .jobs import ReplicateJob
+    from ..tree import Tree
+
+fcntl: ModuleType | None
 try:
     import fcntl
 except ImportError:  # Windows
@@ -34,7 +43,7 @@ _NO_DIGEST = "0" * 64
 CHECKPOINT_SECONDS = 1.0  # how often the run record catches up with the lines written
 
 
-def run_key(job):
+def run_key(job: ReplicateJob) -> dict[str, Any]:
     """What a replicate file was made from: resume refuses a file from another run.
 
     Parameters
@@ -56,22 +65,22 @@ def run_key(job):
     return {"seed": job.seed, "settings": list(job.settings), "data": h.hexdigest()}
 
 
-def refuse_existing(path):
+def refuse_existing(path: str | os.PathLike[str]) -> None:
     """Refuse to start a new replicate file over an existing one (``resume`` continues it)."""
     if os.path.lexists(path):
         raise InputError(_EXISTS, source=path)
 
 
-def _sidecar(path):
+def _sidecar(path: str | os.PathLike[str]) -> str:
     return os.fspath(path) + ".run.json"
 
 
-def _chain(digest, line):
+def _chain(digest: str, line: bytes) -> str:
     """The running SHA-256 of the lines so far: each line hashed after the digest before it."""
     return hashlib.sha256(bytes.fromhex(digest) + line).hexdigest()
 
 
-def _lock(fh, path):
+def _lock(fh: IO[bytes], path: str) -> None:
     """Hold the replicate file for this run alone (an exclusive lock, never waited for)."""
     try:
         if fcntl is not None:
@@ -79,7 +88,8 @@ def _lock(fh, path):
         else:
             import msvcrt
 
-            msvcrt.locking(fh.fileno(), msvcrt.LK_NBLCK, 1)
+            # msvcrt's names exist on Windows only, and type checkers read them for the platform they run on
+            msvcrt.locking(fh.fileno(), msvcrt.LK_NBLCK, 1)  # type: ignore[attr-defined,unused-ignore]
     except OSError as err:
         if err.errno in (errno.EAGAIN, errno.EWOULDBLOCK, errno.EACCES, errno.EDEADLK):
             raise InputError("the replicate file is in use by another run (it is locked); wait for that run "
@@ -88,7 +98,7 @@ def _lock(fh, path):
                          "on a local disk", source=path) from None
 
 
-def _write_error(err, path, tail="nothing was written"):
+def _write_error(err: OSError, path: str, tail: str = "nothing was written") -> Exception:
     mapped = output_error(err, path, tail=tail)
     return err if mapped is None else mapped
 
@@ -101,13 +111,22 @@ class ReplicateFile:
     saturated pairs. ``resume`` trusts only the lines the record vouches for.
     """
 
-    def __init__(self, path, fh, key, lines=0, digest=_NO_DIGEST, capped=()):
+    path: str               # the replicate file
+    fh: IO[bytes]           # held open, and locked, for the run
+    key: dict[str, Any]     # what the file was made from (see run_key)
+    lines: int              # replicate trees written
+    digest: str             # running SHA-256 of those lines (hex)
+    capped: list[int]       # replicates that capped saturated pairs
+    saved: float            # time.monotonic() of the last record
+
+    def __init__(self, path: str, fh: IO[bytes], key: dict[str, Any], lines: int = 0, digest: str = _NO_DIGEST,
+                 capped: Iterable[int] = ()) -> None:
         self.path, self.fh, self.key = path, fh, key
         self.lines, self.digest, self.capped = lines, digest, list(capped)
         self.saved = time.monotonic()
 
     @classmethod
-    def create(cls, path, key):
+    def create(cls, path: str, key: dict[str, Any]) -> ReplicateFile:
         """A new replicate file at ``path`` (refused when one exists), locked, with its record."""
         try:
             fh = open(path, "xb")
@@ -127,7 +146,7 @@ class ReplicateFile:
         return rf
 
     @classmethod
-    def resume(cls, path, key, replicates):
+    def resume(cls, path: str, key: dict[str, Any], replicates: int) -> tuple[ReplicateFile, list[Tree]]:
         """The file of an earlier run and the trees it holds (up to ``replicates``)."""
         try:
             fh = open(path, "r+b")
@@ -163,7 +182,7 @@ class ReplicateFile:
         return cls(path, fh, key, lines, digest, capped), trees
 
     @staticmethod
-    def _record(path, key):
+    def _record(path: str, key: dict[str, Any]) -> tuple[int, str, list[int]]:
         meta_path = _sidecar(path)
         try:
             with open(meta_path, encoding="utf-8") as fh:
@@ -179,7 +198,7 @@ class ReplicateFile:
                              source=path)
         return lines, digest, [i for i in capped if i < lines]
 
-    def append(self, text, capped):
+    def append(self, text: str, capped: bool) -> None:
         """Write one replicate tree's line (flushed); the record catches up every CHECKPOINT_SECONDS."""
         line = text.encode("utf-8")
         try:
@@ -195,14 +214,14 @@ class ReplicateFile:
         if time.monotonic() - self.saved >= CHECKPOINT_SECONDS:
             self.save()
 
-    def save(self):
+    def save(self) -> None:
         """Bring the record up to the lines written; they reach the disk first."""
         os.fsync(self.fh.fileno())
         with atomic_output(_sidecar(self.path)) as fh:
             json.dump({**self.key, "lines": self.lines, "digest": self.digest, "capped": self.capped}, fh)
         self.saved = time.monotonic()
 
-    def close(self, save):
+    def close(self, save: bool) -> None:
         """Let the file go; ``save`` brings the record up first (after a failed write or Ctrl-C)."""
         if save:
             # after a failed write or Ctrl-C: keep what is recorded, and the first error

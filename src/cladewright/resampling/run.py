@@ -16,15 +16,23 @@ from __future__ import annotations
 import os
 import secrets
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from ..choices import PRECISIONS, SUPPORT_MEASURES
 from ..errors import InputError
 from .executors import replicate_results
-from .jobs import ReplicateJob
+from .jobs import ReplicateJob, ReplicateResult
 from .replicate_file import ReplicateFile, refuse_existing, run_key
 from .weights import SEED_LIMIT
+
+if TYPE_CHECKING:
+    from dask.distributed import Client
+
+    from ..alignment import Alignment
+    from ..matrix import DistanceMatrix
+    from ..tree import Tree
 
 __all__ = ["BootstrapResult", "bootstrap"]
 
@@ -36,17 +44,20 @@ class BootstrapResult:
     per group of identical sequences, named after its first sequence;
     ``info["identical_groups"]`` counts the groups of two or more)."""
 
-    tree: object
-    replicates: list
-    seed: int
-    support: str
-    info: dict = field(default_factory=dict)
-    matrix: object = None
+    tree: Tree                      # the tree of the original data, with support on its internal branches
+    replicates: list[Tree]          # the replicate trees, in replicate order
+    seed: int                       # the run's seed (drawn when none was given)
+    support: str                    # "fbp" or "tbe"
+    info: dict[str, Any] = field(default_factory=dict)
+    matrix: DistanceMatrix | None = None
 
 
-def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None, gaps="pairwise",
-              freqs="alignment", saturated="error", negative="zero", seed=None, workers=None, support="fbp",
-              save_replicates=None, resume=False, scheduler=None, progress=True, precision="double"):
+def bootstrap(alignment: Alignment, replicates: int = 100, *, model: str = "k2p", method: str = "nj",
+              gamma: float | None = None, gaps: str = "pairwise", freqs: str = "alignment", saturated: str = "error",
+              negative: str = "zero", seed: int | None = None, workers: int | None = None, support: str = "fbp",
+              save_replicates: str | os.PathLike[str] | None = None, resume: bool = False,
+              scheduler: str | Client | None = None, progress: bool = True,
+              precision: str = "double") -> BootstrapResult:
     """Bootstrap support for the tree of an alignment.
 
     Parameters
@@ -123,7 +134,9 @@ def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None
     distinct, group = split_identical(alignment, model)
     job = ReplicateJob.of(alignment, distinct, group, seed,
                           (model, gamma, gaps, freqs, saturated, method, negative, precision))
-    done, rfile, path = [], None, None
+    done: list[Tree] = []
+    rfile: ReplicateFile | None = None
+    path: str | None = None
     if save_replicates is not None:
         path = os.fspath(save_replicates)
         if not resume:
@@ -143,14 +156,14 @@ def bootstrap(alignment, replicates=100, *, model="k2p", method="nj", gamma=None
             rfile = ReplicateFile.create(path, run_key(job))
         trees = list(done)
         capped = sum(1 for i in rfile.capped if i < len(done)) if rfile is not None else 0
-        pending = {}
+        pending: dict[int, ReplicateResult] = {}
         next_index = len(done)
         todo = list(range(len(done), replicates))
         with Progress("bootstrap", replicates, enabled=progress, done=len(done)) as bar:
-            for index, *result in replicate_results(job, todo, workers, scheduler):
-                pending[index] = result
+            for result in replicate_results(job, todo, workers, scheduler):
+                pending[result[0]] = result
                 while next_index in pending:
-                    parent, length, rooted, was_capped = pending.pop(next_index)
+                    _, parent, length, rooted, was_capped = pending.pop(next_index)
                     trees.append(Tree(parent, length, job.all_names, rooted=rooted))
                     capped += was_capped
                     if rfile is not None:

@@ -1,4 +1,6 @@
-"""Replicate site weights: the nonparametric bootstrap of sites as multinomial counts.
+"""Internal: the replicate site weights cladewright.bootstrap draws.
+
+Replicate site weights: the nonparametric bootstrap of sites as multinomial counts.
 
 A replicate is a multinomial draw of site counts over the distinct site
 patterns; the distance engine takes those weights directly, so no replicate
@@ -14,13 +16,14 @@ Felsenstein (1985) Evolution 39:783–791.
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 __all__ = ["SEED_LIMIT", "replicate_weights"]
 
 SEED_LIMIT = 2**128  # SeedSequence takes any entropy >= 0; 128 bits is its own pool size
 
 
-def replicate_weights(weights, seed, index):
+def replicate_weights(weights: ArrayLike, seed: int, index: int) -> NDArray[np.int64]:
     """Site counts per pattern for replicate ``index``: a multinomial draw of
     L sites with the patterns' observed frequencies (Felsenstein 1985).
 

@@ -8,14 +8,21 @@ Robinson & Foulds (1981) Math. Biosci. 53:131–147; Kuhner & Felsenstein
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
+from numpy.typing import NDArray
 
 from .splits import check_taxa, group_rows, split_lengths
+
+if TYPE_CHECKING:
+    from ..tree import Tree
 
 __all__ = ["robinson_foulds", "branch_score"]
 
 
-def _paired_splits(tree_a, tree_b, trivial, source):
+def _paired_splits(tree_a: Tree, tree_b: Tree, trivial: bool, source: str | None
+                   ) -> tuple[NDArray[np.int64], NDArray[np.int64], NDArray[np.int64], NDArray[np.int64]]:
     check_taxa(tree_a.leaf_names, tree_b.leaf_names, "second tree", source)
     a_bits, a_nodes = tree_a.splits(trivial=trivial)
     b_bits, b_nodes = tree_b.splits(order=tree_a.leaf_names, trivial=trivial)
@@ -23,7 +30,7 @@ def _paired_splits(tree_a, tree_b, trivial, source):
     return inv[: a_bits.shape[0]], inv[a_bits.shape[0]:], a_nodes, b_nodes
 
 
-def robinson_foulds(tree_a, tree_b, *, source=None):
+def robinson_foulds(tree_a: Tree, tree_b: Tree, *, source: str | None = None) -> dict[str, int | float]:
     """Robinson–Foulds distance on unrooted nontrivial splits.
 
     Parameters
@@ -64,7 +71,7 @@ def robinson_foulds(tree_a, tree_b, *, source=None):
             "shared": shared, "only_a": only_a, "only_b": only_b}
 
 
-def branch_score(tree_a, tree_b, *, source=None):
+def branch_score(tree_a: Tree, tree_b: Tree, *, source: str | None = None) -> float:
     """Branch score distance between two trees.
 
     ``sqrt(sum over splits of (len_a - len_b)^2)`` over every split of

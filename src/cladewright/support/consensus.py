@@ -7,15 +7,22 @@ Margush & McMorris (1981) Bull. Math. Biol. 43:239–244.
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
 
 from ..errors import InputError
 from .splits import nonempty_trees, tally_splits
 
+if TYPE_CHECKING:
+    from collections.abc import Iterable
+
+    from ..tree import Tree
+
 __all__ = ["majority_consensus"]
 
 
-def majority_consensus(trees, threshold=0.5, *, source=None):
+def majority_consensus(trees: Iterable[Tree], threshold: float = 0.5, *, source: str | None = None) -> Tree:
     """Majority-rule consensus tree.
 
     Parameters

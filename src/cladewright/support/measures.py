@@ -8,14 +8,22 @@ Felsenstein (1985) Evolution 39:783–791; Lemoine et al. (2018) Nature
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from .splits import check_taxa, group_rows, leaf_positions, nonempty_trees, split_lengths, tally_splits
+
+if TYPE_CHECKING:
+    from collections.abc import Iterable
+
+    from ..tree import Tree
 
 __all__ = ["fbp_support", "tbe_support", "apply_support"]
 
 
-def fbp_support(tree, replicates, *, source=None):
+def fbp_support(tree: Tree, replicates: Iterable[Tree], *, source: str | None = None) -> NDArray[np.float64]:
     """Felsenstein bootstrap proportion of every internal edge of ``tree``.
 
     Parameters
@@ -53,7 +61,7 @@ def fbp_support(tree, replicates, *, source=None):
     return 100.0 * held[inv[keys.shape[0]:]] / len(replicates)
 
 
-def tbe_support(tree, replicates, *, source=None):
+def tbe_support(tree: Tree, replicates: Iterable[Tree], *, source: str | None = None) -> NDArray[np.float64]:
     """Transfer bootstrap expectation of every internal edge of ``tree``.
 
     For a split whose smaller side has ``p`` leaves, each replicate scores
@@ -78,13 +86,13 @@ def tbe_support(tree, replicates, *, source=None):
     Notes
     -----
     Exact; O(k m) per replicate for ``k`` reference splits and ``m``
-    replicate nodes, i.e. O(n^2), compiled (:mod:`cladewright.kernels.transfer`).
+    replicate nodes, i.e. O(n^2), compiled (:mod:`cladewright._kernels.transfer`).
 
     References
     ----------
     Lemoine et al. (2018) Nature 556:452–456.
     """
-    from ..kernels.transfer import transfer_distances
+    from .._kernels.transfer import transfer_distances
 
     replicates = nonempty_trees(replicates, "replicate trees")
     names = tree.leaf_names
@@ -103,7 +111,7 @@ def tbe_support(tree, replicates, *, source=None):
     return 100.0 * total / len(replicates)
 
 
-def apply_support(tree, values):
+def apply_support(tree: Tree, values: ArrayLike) -> Tree:
     """The tree with ``values`` put on the nodes of its internal edges.
 
     Parameters

@@ -1,4 +1,6 @@
-"""Splits as bitsets: grouping equal splits and tallying them over many trees.
+"""Internal: the split bitsets that support, consensus and tree comparison count on.
+
+Splits as bitsets: grouping equal splits and tallying them over many trees.
 
 Every tree is reduced to its unrooted bipartitions, given as rows of uint64
 bitsets by :meth:`cladewright.tree.Tree.splits` over one shared leaf order
@@ -20,11 +22,17 @@ Robinson & Foulds (1981) Math. Biosci. 53:131–147 (trees as sets of splits).
 
 from __future__ import annotations
 
-from typing import NamedTuple
+from typing import TYPE_CHECKING, Any, NamedTuple, Sequence
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from ..errors import InputError
+
+if TYPE_CHECKING:
+    from collections.abc import Iterable
+
+    from ..tree import Tree
 
 __all__ = ["group_rows", "check_taxa", "leaf_positions", "split_lengths", "SplitTally", "tally_splits",
            "nonempty_trees"]
@@ -38,7 +46,7 @@ _M2 = np.uint64(0x94D049BB133111EB)
 _GOLDEN = np.uint64(0x9E3779B97F4A7C15)
 
 
-def _mix(x):
+def _mix(x: NDArray[np.uint64]) -> NDArray[np.uint64]:
     # A 64-bit finaliser (the splitmix64 constants): every input bit reaches
     # every output bit, so rows that differ in one leaf get unrelated hashes.
     x = x ^ (x >> np.uint64(30))
@@ -48,7 +56,7 @@ def _mix(x):
     return x ^ (x >> np.uint64(31))
 
 
-def _row_hash(rows):
+def _row_hash(rows: NDArray[np.uint64]) -> NDArray[np.uint64]:
     h = np.full(rows.shape[0], _GOLDEN, dtype=np.uint64)
     for j in range(rows.shape[1]):  # one pass per 64-leaf word, vectorised over rows
         salt = np.uint64((0x9E3779B97F4A7C15 * (j + 1)) % (1 << 64))
@@ -56,7 +64,7 @@ def _row_hash(rows):
     return h
 
 
-def group_rows(rows):
+def group_rows(rows: ArrayLike) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
     """Group equal rows of a 2-D uint64 array exactly.
 
     Parameters
@@ -89,7 +97,7 @@ def group_rows(rows):
     return first.astype(np.int64), inverse.astype(np.int64)
 
 
-def check_taxa(names, other, what, source):
+def check_taxa(names: Sequence[str], other: Sequence[str], what: str, source: str | None) -> None:
     """Refuse a tree whose leaves are not the reference's taxa.
 
     Parameters
@@ -119,7 +127,7 @@ def check_taxa(names, other, what, source):
     missing = [x for x in names if x not in got]
     extra = [x for x in other if x not in ref]
 
-    def few(xs):
+    def few(xs: list[str]) -> str:
         shown = ", ".join(repr(x) for x in xs[:5])
         return shown + (f" and {len(xs) - 5} more" if len(xs) > 5 else "") if xs else "none"
 
@@ -130,7 +138,7 @@ def check_taxa(names, other, what, source):
     )
 
 
-def split_lengths(tree, nodes):
+def split_lengths(tree: Tree, nodes: NDArray[np.int64]) -> NDArray[np.float64]:
     """Length of the edge giving each split.
 
     Parameters
@@ -154,7 +162,7 @@ def split_lengths(tree, nodes):
     return length
 
 
-def leaf_positions(names, other):
+def leaf_positions(names: Sequence[str], other: Sequence[str]) -> NDArray[np.int64]:
     """Position in ``names`` of each name of ``other`` (the same taxa, any order).
 
     Parameters
@@ -173,15 +181,15 @@ def leaf_positions(names, other):
 class SplitTally(NamedTuple):
     """Every distinct split of a set of trees, with its counts (see :func:`tally_splits`)."""
 
-    keys: np.ndarray          # uint64 (G, w): one bitset row per distinct split
-    count: np.ndarray         # trees holding each split
-    length_sum: np.ndarray    # sum of the split's finite lengths
-    length_count: np.ndarray  # how many of those lengths were finite
-    leaf_sum: np.ndarray      # (n,) sum of each leaf edge's finite lengths
-    leaf_count: np.ndarray    # (n,) how many of those were finite
+    keys: NDArray[np.uint64]           # (G, w): one bitset row per distinct split
+    tree_count: NDArray[np.float64]    # trees holding each split (a field named count would hide tuple.count)
+    length_sum: NDArray[np.float64]    # sum of the split's finite lengths
+    length_count: NDArray[np.float64]  # how many of those lengths were finite
+    leaf_sum: NDArray[np.float64]      # (n,) sum of each leaf edge's finite lengths
+    leaf_count: NDArray[np.float64]    # (n,) how many of those were finite
 
 
-def tally_splits(names, trees, source, what):
+def tally_splits(names: Sequence[str], trees: Sequence[Tree], source: str | None, what: str) -> SplitTally:
     """Every distinct split of ``trees`` over the leaf order ``names``.
 
     Parameters
@@ -228,7 +236,8 @@ def tally_splits(names, trees, source, what):
         g_old, g_new, ln = inv[:old], inv[old:], np.concatenate(lens)
         ok = np.isfinite(ln)
 
-        def add(prev, groups, weights=None):
+        def add(prev: NDArray[np.float64], groups: NDArray[np.int64],
+                weights: NDArray[np.float64] | None = None) -> NDArray[Any]:
             return (np.bincount(g_old, weights=prev, minlength=first.size)
                     + np.bincount(groups, weights=weights, minlength=first.size))
 
@@ -240,7 +249,7 @@ def tally_splits(names, trees, source, what):
     return SplitTally(keys, count, lsum, lcnt, leaf_sum, leaf_cnt)
 
 
-def nonempty_trees(trees, what):
+def nonempty_trees(trees: Iterable[Tree], what: str) -> list[Tree]:
     """``trees`` as a list, refused when empty.
 
     Parameters

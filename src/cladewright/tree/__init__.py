@@ -5,7 +5,7 @@ array of branch lengths and, optionally, support values and internal labels.
 Leaves are nodes ``0..n-1`` in the order of ``leaf_names``; internal nodes are
 ``n..m-1``. Children are kept as CSR arrays computed once; preorder and
 postorder are computed iteratively (no recursion, so a 50,000-leaf caterpillar
-is fine) and cached. The array walks are :mod:`cladewright.tree.layout`'s;
+is fine) and cached. The array walks are :mod:`cladewright.tree._layout`'s;
 Newick and NEXUS text is written by :mod:`cladewright.io`.
 
 Siblings are ordered by the smallest leaf index in their subtrees. A parser
@@ -23,13 +23,17 @@ Newick format: the trade's de facto standard (1986 informal specification).
 from __future__ import annotations
 
 import math
+import os
+from collections.abc import Iterable
+from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike, NDArray
 
 from ..io.newick_writer import format_newick
 from ..io.nexus import format_nexus
 from ..io.output import atomic_output
-from .layout import children_csr, leaf_intervals, split_bitsets, walk_preorder
+from ._layout import children_csr, leaf_intervals, split_bitsets, walk_preorder
 
 __all__ = ["Tree"]
 
@@ -76,8 +80,15 @@ class Tree:
     __slots__ = ("_parent", "_length", "_support", "_labels", "_support_text", "_leaf_names", "rooted",
                  "_root", "_ptr", "_kids", "_pre", "_post", "_intervals", "_leaf_index")
 
-    def __init__(self, parent, length, leaf_names, *, support=None, labels=None, rooted=False,
-                 support_text=None):
+    #: Whether the root is meaningful.
+    rooted: bool
+    _post: NDArray[np.int64] | None
+    _intervals: tuple[NDArray[np.int64], NDArray[np.int64], NDArray[np.int64]] | None
+    _leaf_index: dict[str, int] | None
+
+    def __init__(self, parent: ArrayLike, length: ArrayLike, leaf_names: Iterable[str], *,
+                 support: ArrayLike | None = None, labels: Iterable[str | None] | None = None, rooted: bool = False,
+                 support_text: Iterable[str | None] | None = None) -> None:
         parent = np.array(parent, dtype=np.int64).reshape(-1)
         m = parent.shape[0]
         length = np.array(length, dtype=np.float64).reshape(-1)
@@ -110,8 +121,8 @@ class Tree:
             if all(x is None for x in support_text):
                 support_text = None
         if len(set(names)) != n:
-            seen = set()
-            dup = next(x for x in names if x in seen or seen.add(x))
+            first = {x: i for i, x in reversed(list(enumerate(names)))}  # where each name is first used
+            dup = next(x for i, x in enumerate(names) if first[x] != i)  # the first name met a second time
             raise ValueError(f"leaf name {dup!r} is used more than once")
         roots = np.flatnonzero(parent == -1)
         if roots.size != 1:
@@ -141,80 +152,80 @@ class Tree:
 
     # ---- basic attributes -------------------------------------------------
     @property
-    def n_leaves(self):
+    def n_leaves(self) -> int:
         """Number of leaves ``n``."""
         return len(self._leaf_names)
 
     @property
-    def n_nodes(self):
+    def n_nodes(self) -> int:
         """Number of nodes ``m`` (leaves and internal)."""
         return self._parent.shape[0]
 
     @property
-    def root(self):
+    def root(self) -> int:
         """Index of the root node."""
         return self._root
 
     @property
-    def leaf_names(self):
+    def leaf_names(self) -> tuple[str, ...]:
         """Leaf names as a tuple, in leaf index order."""
         return self._leaf_names
 
     @property
-    def parent(self):
+    def parent(self) -> NDArray[np.int64]:
         """Parent index of every node (read-only int64 array, root -1)."""
         return self._parent
 
     @property
-    def length(self):
+    def length(self) -> NDArray[np.float64]:
         """Branch length above every node (read-only float64 array, nan = none)."""
         return self._length
 
     @property
-    def support(self):
+    def support(self) -> NDArray[np.float64]:
         """Support of the branch above every node (read-only float64, nan = none)."""
         return self._support
 
     @property
-    def labels(self):
+    def labels(self) -> list[str | None]:
         """Internal node labels kept from a file (list of str or None, length m)."""
         return self._labels
 
     @property
-    def support_text(self):
+    def support_text(self) -> tuple[str | None, ...] | None:
         """Text each support value was read from (tuple of str or None,
         length m), or None when no support value was read from a file."""
         return self._support_text
 
-    def __repr__(self):
+    def __repr__(self) -> str:
         kind = "rooted" if self.rooted else "unrooted"
         return f"Tree({self.n_leaves} leaves, {self.n_nodes} nodes, {kind})"
 
-    def leaf_index(self, name):
+    def leaf_index(self, name: str) -> int:
         """Index of the leaf called ``name`` (KeyError if there is none)."""
         if self._leaf_index is None:
             self._leaf_index = {x: i for i, x in enumerate(self._leaf_names)}
         return self._leaf_index[name]
 
     # ---- structure --------------------------------------------------------
-    def children(self, node):
+    def children(self, node: int) -> NDArray[np.int64]:
         """Children of ``node`` as an int64 array, in sibling order."""
         return self._kids[self._ptr[node]:self._ptr[node + 1]]
 
-    def children_table(self):
+    def children_table(self) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
         """Every node's children at once: ``kids[ptr[v]:ptr[v + 1]]`` are
         those of ``v``, in sibling order (read-only int64 arrays)."""
         return self._ptr, self._kids
 
-    def n_children(self):
+    def n_children(self) -> NDArray[np.int64]:
         """Number of children of every node (int64 array, shape (m,))."""
         return np.diff(self._ptr)
 
-    def preorder(self):
+    def preorder(self) -> NDArray[np.int64]:
         """Nodes in depth-first preorder (parents before children), cached."""
         return self._pre
 
-    def postorder(self):
+    def postorder(self) -> NDArray[np.int64]:
         """Nodes in depth-first postorder (children, left to right, before
         their parent), cached."""
         if self._post is None:
@@ -225,7 +236,7 @@ class Tree:
             self._post = post
         return self._post
 
-    def _leaf_intervals(self):
+    def _leaf_intervals(self) -> tuple[NDArray[np.int64], NDArray[np.int64], NDArray[np.int64]]:
         """(lo, hi, leafseq): the leaves below node v are leafseq[lo[v]:hi[v]],
         where leafseq is the leaves in preorder (a subtree's leaves are
         contiguous in any depth-first order)."""
@@ -233,12 +244,13 @@ class Tree:
             self._intervals = leaf_intervals(self._pre, self.postorder(), self.n_leaves)
         return self._intervals
 
-    def leaf_counts(self):
+    def leaf_counts(self) -> NDArray[np.int64]:
         """Number of leaves below every node (int64 array, shape (m,))."""
         lo, hi, _ = self._leaf_intervals()
         return hi - lo
 
-    def splits(self, order=None, trivial=False):
+    def splits(self, order: Iterable[str] | None = None,
+               trivial: bool = False) -> tuple[NDArray[np.uint64], NDArray[np.int64]]:
         """The tree's splits (bipartitions of the leaves) as bitsets.
 
         Parameters
@@ -282,20 +294,20 @@ class Tree:
         return split_bitsets(lo, hi, self._pre, pos, trivial)
 
     # ---- derived values ---------------------------------------------------
-    def patristic(self):
+    def patristic(self) -> NDArray[np.float64]:
         """Leaf-to-leaf path lengths (missing lengths count as 0).
 
         Returns
         -------
         float64 ndarray, shape (n, n)
         """
-        from ..kernels.patristic import patristic_distances
+        from .._kernels.patristic import patristic_distances
         length = np.nan_to_num(np.asarray(self._length, dtype=np.float64), nan=0.0)
         parent = np.ascontiguousarray(self._parent)
         post = np.ascontiguousarray(self.postorder())
         return patristic_distances(parent, length, post, self.n_leaves)
 
-    def support_percent(self):
+    def support_percent(self) -> tuple[NDArray[np.float64], bool]:
         """Support as percentages, and whether it was read as proportions.
 
         Support read from a file (:attr:`support_text` set) whose every
@@ -318,7 +330,7 @@ class Tree:
             return s * 100.0, True
         return s, False
 
-    def with_support(self, support):
+    def with_support(self, support: ArrayLike) -> Tree:
         """A new Tree with the same shape, lengths and labels and ``support``.
 
         Parameters
@@ -339,7 +351,7 @@ class Tree:
         return new
 
     # ---- output -----------------------------------------------------------
-    def to_newick(self, digits=None, support_digits=0):
+    def to_newick(self, digits: int | None = None, support_digits: int = 0) -> str:
         """The tree as one line of Newick text ending in ``";\\n"``.
 
         Parameters
@@ -356,7 +368,7 @@ class Tree:
         """
         return format_newick(self, digits=digits, support_digits=support_digits)
 
-    def write(self, path, format="newick", **options):
+    def write(self, path: str | os.PathLike[str], format: str = "newick", **options: Any) -> None:
         """Write the tree to ``path`` (``-`` for standard output) atomically.
 
         Parameters
@@ -375,7 +387,7 @@ class Tree:
         with atomic_output(path) as fh:
             fh.write(text)
 
-    def to_ete3(self):
+    def to_ete3(self) -> Any:
         """The tree as an ``ete3.Tree`` (names, lengths, support kept; a
         missing length becomes 0.0, a missing support stays at ete3's
         default)."""

@@ -52,7 +52,7 @@ def condense_upper(D, out):
         within rounding gives one answer whichever half a reader would use.
     out : float ndarray (n (n − 1) / 2,)
         Filled row by row: entry (i, j), i < j, at ``pairs_before(i, n) + j - i - 1``
-        (the layout :func:`cladewright.kernels.linkage.nn_chain_linkage` reads).
+        (the layout :func:`cladewright._kernels.linkage.nn_chain_linkage` reads).
     """
     n = D.shape[0]
     k = 0

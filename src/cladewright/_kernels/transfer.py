@@ -18,14 +18,19 @@ De Oliveira T, Gascuel O (2018) Renewing Felsenstein's phylogenetic bootstrap
 in the era of big data. Nature 556:452–456.
 """
 
+from __future__ import annotations
+
 import numpy as np
 from numba import njit, prange
+from numpy.typing import NDArray
 
 __all__ = ["transfer_distances"]
 
 
 @njit(cache=True, parallel=True)
-def transfer_distances(ref_bits, ref_size, n_leaves, parent, postorder, leaf_pos):
+def transfer_distances(ref_bits: NDArray[np.uint64], ref_size: NDArray[np.int64], n_leaves: int,
+                       parent: NDArray[np.int64], postorder: NDArray[np.int64],
+                       leaf_pos: NDArray[np.int64]) -> NDArray[np.int64]:
     """Transfer distance of every reference split to one replicate tree.
 
     Parameters

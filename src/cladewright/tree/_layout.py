@@ -13,6 +13,7 @@ Math. Biosci. 53:131-147 (splits / bipartitions of a tree).
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import NDArray
 
 __all__ = ["children_csr", "walk_preorder", "leaf_intervals", "split_bitsets", "SPLIT_CHUNK_CELLS"]
 
@@ -21,7 +22,7 @@ __all__ = ["children_csr", "walk_preorder", "leaf_intervals", "split_bitsets", "
 SPLIT_CHUNK_CELLS = 1 << 24
 
 
-def children_csr(parent, n):
+def children_csr(parent: NDArray[np.int64], n: int) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
     """Children as CSR arrays, siblings ordered by the smallest leaf index below each.
 
     Parameters
@@ -39,15 +40,15 @@ def children_csr(parent, n):
     """
     m = parent.shape[0]
     par = parent.tolist()
-    minleaf = [-1] * m
+    claimed = [-1] * m
     # Leaves in increasing index: each climbs until it meets a node already
     # claimed by a smaller leaf, so every node is visited once.
     for leaf in range(n):
         v = leaf
-        while v != -1 and minleaf[v] < 0:
-            minleaf[v] = leaf
+        while v != -1 and claimed[v] < 0:
+            claimed[v] = leaf
             v = par[v]
-    minleaf = np.array(minleaf, dtype=np.int64)
+    minleaf = np.array(claimed, dtype=np.int64)
     nonroot = np.flatnonzero(parent >= 0)
     kids = nonroot[np.lexsort((minleaf[nonroot], parent[nonroot]))]
     ptr = np.zeros(m + 1, np.int64)
@@ -57,7 +58,8 @@ def children_csr(parent, n):
     return ptr, kids
 
 
-def walk_preorder(ptr, kids, root, mirror=False):
+def walk_preorder(ptr: NDArray[np.int64], kids: NDArray[np.int64], root: int,
+                  mirror: bool = False) -> NDArray[np.int64]:
     """Iterative depth-first preorder from ``root``.
 
     Parameters
@@ -76,7 +78,7 @@ def walk_preorder(ptr, kids, root, mirror=False):
     """
     p = ptr.tolist()
     k = kids.tolist()
-    out = []
+    out: list[int] = []
     push = out.append
     stack = [root]
     pop = stack.pop
@@ -98,7 +100,8 @@ def walk_preorder(ptr, kids, root, mirror=False):
     return res
 
 
-def leaf_intervals(pre, post, n):
+def leaf_intervals(pre: NDArray[np.int64], post: NDArray[np.int64],
+                   n: int) -> tuple[NDArray[np.int64], NDArray[np.int64], NDArray[np.int64]]:
     """The leaves below every node as an interval of one leaf sequence.
 
     A subtree's leaves are contiguous in any depth-first order, so the
@@ -127,7 +130,8 @@ def leaf_intervals(pre, post, n):
     return lo, hi, pre[is_leaf_pre]
 
 
-def split_bitsets(lo, hi, pre, pos, trivial=False):
+def split_bitsets(lo: NDArray[np.int64], hi: NDArray[np.int64], pre: NDArray[np.int64], pos: NDArray[np.int64],
+                  trivial: bool = False) -> tuple[NDArray[np.uint64], NDArray[np.int64]]:
     """The splits of a tree as bitsets, from its leaf intervals.
 
     Parameters

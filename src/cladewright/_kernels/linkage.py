@@ -122,7 +122,7 @@ def nn_chain_linkage(C, n, ai, aj, b, g, size_weighted, sizes):
     ----------
     C : float64 or float32 ndarray (n (n − 1) / 2,)
         Condensed upper triangle of the symmetric dissimilarities, row by row
-        (as written by :func:`cladewright.kernels.matrix.condense_upper`).
+        (as written by :func:`cladewright._kernels.matrix.condense_upper`).
         Used as work space; the updates are computed in float64 and stored
         in C's precision.
     n : int

@@ -1,0 +1,1 @@
+"""Internal: compiled numba kernels: arrays in, arrays out, no I/O and no objects."""

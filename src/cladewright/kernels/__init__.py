@@ -1,1 +1,0 @@
-"""Compiled numba kernels: arrays in, arrays out, no I/O and no objects."""
