@@ -17,7 +17,7 @@ Usage (a bounded run; exits 1 on the first failure, printing the input)::
     python fuzz/fuzz_readers.py --seconds 60 [--seed 0]
 
 :func:`one_input` takes bytes and so also suits byte-level fuzzers that call
-a function per input. tests/test_fuzz.py runs :func:`make_test` with a fixed
+a function per input. tests/io/test_fuzz.py runs :func:`make_test` with a fixed
 number of examples and ``derandomize=True`` so that CI is reproducible.
 """
 

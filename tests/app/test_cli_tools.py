@@ -21,27 +21,13 @@ from cladewright.build import build_tree
 from cladewright.cli import main
 from cladewright.io import read_trees
 from cladewright.matrix import DistanceMatrix
-from cladewright.tree import Tree
+
+from simulate import random_join_tree, random_matrix
 
 
 def random_tree(rng, names):
-    """A random unrooted binary tree over ``names`` with lengths and support."""
-    n = len(names)
-    m = 2 * n - 2
-    parent = np.full(m, -1)
-    pool = list(range(n))
-    nxt = n
-    while len(pool) > 3:
-        a, b = rng.choice(len(pool), 2, replace=False)
-        parent[pool[a]] = parent[pool[b]] = nxt
-        pool = [x for i, x in enumerate(pool) if i not in (a, b)] + [nxt]
-        nxt += 1
-    parent[pool] = nxt
-    length = rng.uniform(0.01, 1.0, m)
-    length[-1] = np.nan
-    sup = np.full(m, np.nan)
-    sup[n:m - 1] = rng.integers(0, 101, m - 1 - n)
-    return Tree(parent, length, list(rng.permutation(names)), support=sup)
+    """A random unrooted binary tree over ``names`` (in random order) with lengths and support."""
+    return random_join_tree(rng, len(names), False, names=names)
 
 
 def run(*args):
@@ -142,9 +128,7 @@ def test_clusters_on_upgma_tree_equals_fcluster(tmp_path):
     # reference: scipy.cluster.hierarchy.fcluster(linkage(average), t=D, criterion="distance")
     rng = np.random.default_rng(9)
     n = 25
-    a = rng.random((n, n))
-    a = (a + a.T) / 2
-    np.fill_diagonal(a, 0)
+    a = random_matrix(rng, n, mirror="mean")
     names = [f"s{i}" for i in range(n)]
     src = tmp_path / "u.nwk"
     src.write_text(build_tree(DistanceMatrix(names, a), "upgma").to_newick())

@@ -19,26 +19,15 @@ from cladewright.io.readers import parse_newick
 from cladewright.textdraw import text_tree
 from cladewright.tree import Tree
 
+from simulate import random_join_tree
+
 SVG = "{http://www.w3.org/2000/svg}"
 
 
 def random_tree(rng, n):
-    """A random unrooted binary tree with lengths and support."""
-    m = 2 * n - 2
-    parent = np.full(m, -1)
-    pool = list(range(n))
-    nxt = n
-    while len(pool) > 3:
-        a, b = rng.choice(len(pool), 2, replace=False)
-        parent[pool[a]] = parent[pool[b]] = nxt
-        pool = [x for i, x in enumerate(pool) if i not in (a, b)] + [nxt]
-        nxt += 1
-    parent[pool] = nxt
-    length = rng.uniform(0.001, 0.1, m)
-    length[-1] = np.nan
-    sup = np.full(m, np.nan)
-    sup[n:m - 1] = rng.integers(0, 101, m - 1 - n)
-    return Tree(parent, length, [f"Taxon_{i:03d}_x" for i in range(n)], support=sup)
+    """A random unrooted binary tree with short lengths and support, leaves Taxon_000_x, Taxon_001_x, ..."""
+    return random_join_tree(rng, n, False, names=[f"Taxon_{i:03d}_x" for i in range(n)], shortest=0.001,
+                            longest=0.1, shuffle=False)
 
 
 def svg_texts(path):

@@ -13,7 +13,7 @@ import scipy.linalg
 from Bio import AlignIO, SeqIO
 import dendropy
 
-EXAMPLES = pathlib.Path(__file__).resolve().parents[1] / "example_alignments"
+EXAMPLES = pathlib.Path(__file__).resolve().parents[2] / "example_alignments"
 SCRIPT = EXAMPLES / "make_examples.py"
 DATA_FILES = [
     "glass_snails_coi.fasta",

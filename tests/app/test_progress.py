@@ -5,7 +5,7 @@ import io
 from cladewright.distances import distance_matrix
 from cladewright.progress import Progress
 
-from conftest import make_alignment
+from simulate import make_alignment
 
 
 class Terminal(io.StringIO):

@@ -24,7 +24,7 @@ from cladewright.distances import distance_matrix
 from cladewright.report import CAUTION, write_report
 from cladewright.support import apply_support
 
-from conftest import make_alignment, simulate_dna
+from simulate import make_alignment, simulate_dna
 
 CHROMIUM = "/usr/bin/chromium"
 

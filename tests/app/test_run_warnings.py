@@ -28,21 +28,17 @@ from cladewright.distances import distance_matrix
 from cladewright.errors import CladewrightWarning, InputError, SaturationError
 from cladewright.memory import WORKING_MATRICES, check_fits
 
-SRC = pathlib.Path(__file__).resolve().parents[1] / "src" / "cladewright"
+from simulate import mutate, random_sequence
+
+SRC = pathlib.Path(__file__).resolve().parents[2] / "src" / "cladewright"
 
 
 def _sequences(seed=21, length=40):
     """Three close and three far relatives of one random sequence: under JC69 some far pairs saturate
     (p >= 3/4) and neighbour joining gives negative branch lengths."""
     rng = np.random.default_rng(seed)
-    base = rng.choice(list("ACGT"), length)
-    seqs = []
-    for k in range(6):
-        s = base.copy()
-        hit = rng.random(length) < (0.1 if k < 3 else 0.7)
-        s[hit] = rng.choice(list("ACGT"), int(hit.sum()))
-        seqs.append(s)
-    return np.array(seqs)
+    base = random_sequence(rng, length)
+    return np.array([mutate(rng, base, 0.1 if k < 3 else 0.7) for k in range(6)])
 
 
 def _expected(seqs):

@@ -16,23 +16,17 @@ from skbio import TreeNode
 from cladewright.build import METHODS, build_tree, build_tree_with_info, fit_statistic
 from cladewright.build.nj import nj_arrays
 from cladewright.errors import InputError
-from cladewright.kernels.patristic import patristic_distances
+from cladewright._kernels.patristic import patristic_distances
 from cladewright.matrix import DistanceMatrix
 from cladewright.tree import Tree
 
-
-def symmetric(A):
-    D = np.triu(A, 1)
-    return D + D.T
+from simulate import random_matrix
 
 
-def random_matrix(n, seed, zeros=0):
-    rng = np.random.default_rng(seed)
-    D = symmetric(rng.uniform(0.1, 1.0, (n, n)))
-    for _ in range(zeros):
-        i, j = rng.choice(n, 2, replace=False)
-        D[i, j] = D[j, i] = 0.0
-    return DistanceMatrix([f"t{i}" for i in range(n)], D)
+def random_distances(n, seed, zeros=0):
+    """A DistanceMatrix over t0..t{n-1}: values uniform on [0.1, 1), ``zeros`` random pairs set to 0."""
+    values = random_matrix(np.random.default_rng(seed), n, low=0.1, high=1.0, zeros=zeros)
+    return DistanceMatrix([f"t{i}" for i in range(n)], values)
 
 
 def newick(parent, length, names):
@@ -68,7 +62,7 @@ def upper(X):
 
 def test_patristic_matches_scikit_bio():
     # reference: skbio TreeNode.tip_tip_distances on the same tree.
-    dm = random_matrix(30, 1)
+    dm = random_distances(30, 1)
     parent, length = nj_arrays(dm.values)
     tree = Tree(parent, length, dm.names)
     ref = TreeNode.read(io.StringIO(newick(parent, length, dm.names))).tip_tip_distances()
@@ -107,7 +101,7 @@ def test_patristic_caterpillar_is_iterative():
 def test_cophenetic_correlation(method, scipy_name):
     # reference: np.corrcoef on the upper triangle (Sokal & Rohlf 1962), and
     # the coefficient returned by scipy.cluster.hierarchy.cophenet.
-    dm = random_matrix(40, 2)
+    dm = random_distances(40, 2)
     tree, info = build_tree_with_info(dm, method)
     name, r = fit_statistic(tree, dm)
     assert name == "cophenetic correlation" == info["fit_name"]
@@ -122,7 +116,7 @@ def test_cophenetic_correlation(method, scipy_name):
 def test_percent_standard_deviation(method):
     # source: Fitch & Margoliash (1967): PSD = 100 sqrt(sum ((d - p)/d)^2 / N)
     # over pairs i < j, here with pairs at d = 0 left out of sum and count.
-    dm = random_matrix(25, 3, zeros=4)
+    dm = random_distances(25, 3, zeros=4)
     tree, info = build_tree_with_info(dm, method)
     name, psd = fit_statistic(tree, dm)
     assert name == "percent standard deviation" == info["fit_name"]
@@ -136,7 +130,7 @@ def test_percent_standard_deviation(method):
 
 def test_fit_with_matrix_in_another_order():
     # common practice: the statistic depends on taxa, not on row order.
-    dm = random_matrix(12, 4)
+    dm = random_distances(12, 4)
     tree = build_tree(dm, "bionj")
     perm = np.random.default_rng(0).permutation(12)
     dm2 = DistanceMatrix([dm.names[i] for i in perm], dm.values[np.ix_(perm, perm)])
@@ -157,7 +151,7 @@ def test_additive_matrix_fits_exactly():
 def test_build_tree_shapes():
     # common practice: linkage trees rooted (binary root), NJ trees unrooted
     # with a basal trifurcation.
-    dm = random_matrix(15, 5)
+    dm = random_distances(15, 5)
     for method in METHODS:
         tree = build_tree(dm, method)
         assert tree.leaf_names == dm.names
@@ -172,7 +166,7 @@ def test_build_tree_shapes():
 def test_negative_lengths_zero_or_keep():
     # source: canonical NJ can give negative lengths on non-additive data
     # (Saitou & Nei 1987); "zero" sets them to 0 and counts them.
-    D = symmetric(np.random.default_rng(6).random((30, 30)))
+    D = random_matrix(np.random.default_rng(6), 30)
     dm = DistanceMatrix([f"t{i}" for i in range(30)], D)
     raw = nj_arrays(dm.values)[1]
     n_neg = int(np.sum(raw < 0))
@@ -187,7 +181,7 @@ def test_negative_lengths_zero_or_keep():
 
 def test_build_tree_errors():
     # common practice: one-line messages naming the problem and the fix.
-    dm = random_matrix(5, 7)
+    dm = random_distances(5, 7)
     with pytest.raises(InputError, match="upgma, wpgma, single, complete, nj, bionj"):
         build_tree(dm, "median")
     with pytest.raises(InputError, match="'zero' or 'keep'"):

@@ -10,12 +10,9 @@ from scipy.spatial.distance import squareform
 
 from cladewright.build.linkage import LINKAGE_METHODS, linkage_arrays
 
+from simulate import path_lengths, random_matrix, tied_matrix, ultrametric_matrix
+
 SCIPY_NAME = {"upgma": "average", "wpgma": "weighted", "single": "single", "complete": "complete"}
-
-
-def symmetric(A):
-    D = np.triu(A, 1)
-    return D + D.T
 
 
 def clusters(parent, n):
@@ -27,24 +24,6 @@ def clusters(parent, n):
             out.setdefault(v, set()).add(leaf)
             v = parent[v]
     return out
-
-
-def path_lengths(parent, length, n):
-    """Leaf-to-leaf path lengths by walking to the root."""
-    up = []
-    for leaf in range(n):
-        dist, v, acc = {}, leaf, 0.0
-        while v >= 0:
-            dist[v] = acc
-            if parent[v] >= 0:
-                acc += length[v]
-            v = parent[v]
-        up.append(dist)
-    D = np.zeros((n, n))
-    for a in range(n):
-        for b in range(a + 1, n):
-            D[a, b] = D[b, a] = min(up[a][x] + up[b][x] for x in up[a] if x in up[b])
-    return D
 
 
 def test_coefficient_table_is_lance_williams():
@@ -65,7 +44,7 @@ def test_patristic_equals_scipy_cophenet(method):
     rng = np.random.default_rng(sorted(SCIPY_NAME).index(method))
     for _ in range(25):
         n = int(rng.integers(2, 40))
-        D = symmetric(rng.random((n, n)))
+        D = random_matrix(rng, n)
         parent, length, height = linkage_arrays(D, method)
         ref = cophenet(linkage(squareform(D, checks=False), SCIPY_NAME[method]))
         got = squareform(path_lengths(parent, length, n), checks=False)
@@ -83,7 +62,7 @@ def test_ties_give_scipy_clusters(method):
     rng = np.random.default_rng(31)
     for _ in range(100):
         n = int(rng.integers(2, 16))
-        D = symmetric(rng.integers(0, 5, (n, n)).astype(float))
+        D = tied_matrix(rng, n, 0, 5)
         parent, _, height = linkage_arrays(D, method)
         Z = linkage(squareform(D, checks=False), SCIPY_NAME[method])
         ref = [{i} for i in range(n)]
@@ -101,26 +80,10 @@ def test_single_linkage_ties_give_scipy_cophenet():
     rng = np.random.default_rng(32)
     for _ in range(100):
         n = int(rng.integers(2, 16))
-        D = symmetric(rng.integers(0, 5, (n, n)).astype(float))
+        D = tied_matrix(rng, n, 0, 5)
         parent, length, _ = linkage_arrays(D, "single")
         ref = cophenet(linkage(squareform(D, checks=False), "single"))
         np.testing.assert_allclose(squareform(path_lengths(parent, length, n), checks=False), ref)
-
-
-def random_ultrametric(n, rng):
-    """Random rooted binary tree with distinct, increasing node heights."""
-    parent = np.full(2 * n - 1, -1)
-    height = np.zeros(2 * n - 1)
-    pool = list(range(n))
-    h = 0.0
-    for nxt in range(n, 2 * n - 1):
-        a, b = sorted(rng.choice(len(pool), 2, replace=False), reverse=True)
-        x, y = pool.pop(a), pool.pop(b)
-        parent[x] = parent[y] = nxt
-        h += rng.uniform(0.1, 1.0)
-        height[nxt] = h
-        pool.append(nxt)
-    return parent, height
 
 
 @pytest.mark.parametrize("method", sorted(SCIPY_NAME))
@@ -130,9 +93,7 @@ def test_ultrametric_matrix_recovers_tree(method):
     rng = np.random.default_rng(5)
     for _ in range(20):
         n = int(rng.integers(2, 30))
-        parent, height = random_ultrametric(n, rng)
-        length = np.where(parent >= 0, height[np.maximum(parent, 0)] - height, np.nan)
-        D = path_lengths(parent, length, n)
+        parent, height, D = ultrametric_matrix(rng, n)
         p, l, h = linkage_arrays(D, method)
         want = sorted(sorted(c) for c in clusters(parent, n).values())
         assert sorted(sorted(c) for c in clusters(p, n).values()) == want
@@ -144,7 +105,7 @@ def test_ultrametric_matrix_recovers_tree(method):
 def test_tree_shape_and_float32():
     # common practice: parents after children, one root; float32 accepted and worked in float32.
     rng = np.random.default_rng(6)
-    D = symmetric(rng.random((50, 50))).astype(np.float32)
+    D = random_matrix(rng, 50).astype(np.float32)
     keep = D.copy()
     for method in SCIPY_NAME:
         p, l, h = linkage_arrays(D, method)
@@ -173,7 +134,7 @@ def test_large_matrix_matches_scipy(method):
     rng = np.random.default_rng(41)
     n = 700
     for tied in (False, True):
-        D = symmetric(rng.integers(1, 9, (n, n)).astype(float) if tied else rng.random((n, n)))
+        D = tied_matrix(rng, n, 1, 9) if tied else random_matrix(rng, n)
         parent, _, height = linkage_arrays(D, method)
         Z = linkage(squareform(D, checks=False), SCIPY_NAME[method])
         np.testing.assert_allclose(2 * height[n:], Z[:, 2], rtol=1e-12)

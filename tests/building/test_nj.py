@@ -11,6 +11,8 @@ from skbio.tree import nj as sk_nj
 
 from cladewright.build.nj import nj_arrays
 
+from simulate import additive_matrix, random_matrix, tied_matrix
+
 
 # ---- helpers (test-local, independent of the code under test) --------------
 
@@ -57,40 +59,6 @@ def same_splits(a, b, rtol=1e-9, atol=1e-12):
     assert set(a) == set(b)
     for s in a:
         assert a[s] == pytest.approx(b[s], rel=rtol, abs=atol), s
-
-
-def random_tree(n, rng, lo=0.05, hi=1.0):
-    """Random rooted binary tree by joining random pairs; positive lengths."""
-    parent = np.full(2 * n - 1, -1)
-    pool = list(range(n))
-    nxt = n
-    while len(pool) > 1:
-        a, b = sorted(rng.choice(len(pool), 2, replace=False), reverse=True)
-        x, y = pool.pop(a), pool.pop(b)
-        parent[x] = parent[y] = nxt
-        pool.append(nxt)
-        nxt += 1
-    length = rng.uniform(lo, hi, 2 * n - 1)
-    length[-1] = np.nan
-    return parent, length
-
-
-def path_lengths(parent, length, n):
-    """Leaf-to-leaf path lengths by walking to the root (O(n^2 depth))."""
-    up = []
-    for leaf in range(n):
-        dist, v, acc = {}, leaf, 0.0
-        while v >= 0:
-            dist[v] = acc
-            if parent[v] >= 0:
-                acc += length[v]
-            v = parent[v]
-        up.append(dist)
-    D = np.zeros((n, n))
-    for a in range(n):
-        for b in range(a + 1, n):
-            D[a, b] = D[b, a] = min(up[a][x] + up[b][x] for x in up[a] if x in up[b])
-    return D
 
 
 def textbook_nj(D, bionj=False):
@@ -149,11 +117,6 @@ def textbook_nj(D, bionj=False):
     return parent, length
 
 
-def symmetric(A):
-    D = np.triu(A, 1)
-    return D + D.T
-
-
 # ---- worked example ---------------------------------------------------------
 
 # from memory: the classic five-taxon teaching example (additive).
@@ -197,9 +160,7 @@ def test_nj_matches_scikit_bio():
     done = 0
     while done < 25:
         n = int(rng.integers(4, 30))
-        parent, length = random_tree(n, rng)
-        D = path_lengths(parent, length, n)
-        D = symmetric(D * rng.uniform(0.9, 1.1, D.shape))
+        parent, length, D = additive_matrix(rng, n, noise=0.1)
         p, l = nj_arrays(D)
         if np.any(l[:-1] < 0):
             continue
@@ -220,7 +181,7 @@ def test_nj_equals_textbook_scan_with_ties(list_length, n_classes):
     rng = np.random.default_rng(2024 + list_length)
     for _ in range(150):
         n = int(rng.integers(3, 12))
-        D = symmetric(rng.integers(0, 5, (n, n)).astype(float))
+        D = tied_matrix(rng, n, 0, 5)
         p, l = nj_arrays(D, list_length=list_length, n_classes=n_classes)
         rp, rl = textbook_nj(D)
         np.testing.assert_array_equal(p, rp)
@@ -232,7 +193,7 @@ def test_bionj_equals_textbook_scan():
     rng = np.random.default_rng(77)
     for trial in range(120):
         n = int(rng.integers(3, 10))
-        D = symmetric(rng.random((n, n)))
+        D = random_matrix(rng, n)
         p, l = nj_arrays(D, bionj=True, list_length=1 + trial % 4, n_classes=1 + trial % 5)
         rp, rl = textbook_nj(D, bionj=True)
         np.testing.assert_array_equal(p, rp)
@@ -243,9 +204,7 @@ def test_fast_search_on_larger_matrices():
     # reference: textbook_nj; larger matrices so that most rows are pruned.
     rng = np.random.default_rng(5)
     for n in (40, 60):
-        parent, length = random_tree(n, rng)
-        D = path_lengths(parent, length, n)
-        D = symmetric(D * rng.uniform(0.8, 1.2, D.shape))
+        parent, length, D = additive_matrix(rng, n, noise=0.2)
         for bionj in (False, True):
             p, l = nj_arrays(D, bionj=bionj, list_length=2, n_classes=4)
             rp, rl = textbook_nj(D, bionj=bionj)
@@ -262,8 +221,7 @@ def test_additive_matrix_recovers_generating_tree(bionj):
     rng = np.random.default_rng(3 + bionj)
     for _ in range(30):
         n = int(rng.integers(3, 40))
-        parent, length = random_tree(n, rng)
-        D = path_lengths(parent, length, n)
+        parent, length, D = additive_matrix(rng, n)
         p, l = nj_arrays(D, bionj=bionj)
         same_splits(unrooted_splits(p, l, n), unrooted_splits(parent, length, n), rtol=1e-9, atol=1e-9)
 
@@ -271,8 +229,7 @@ def test_additive_matrix_recovers_generating_tree(bionj):
 def test_float32_input_and_input_untouched():
     # common practice: a float32 matrix gives the tree of its float64 values, to float32 rounding.
     rng = np.random.default_rng(8)
-    parent, length = random_tree(25, rng)
-    D32 = path_lengths(parent, length, 25).astype(np.float32)
+    D32 = additive_matrix(rng, 25)[2].astype(np.float32)
     keep = D32.copy()
     p32, l32 = nj_arrays(D32)
     p64, l64 = nj_arrays(D32.astype(np.float64))
@@ -285,7 +242,7 @@ def test_float32_input_and_input_untouched():
 def test_same_input_same_tree():
     # common practice: deterministic output.
     rng = np.random.default_rng(9)
-    D = symmetric(rng.integers(0, 3, (30, 30)).astype(float))
+    D = tied_matrix(rng, 30, 0, 3)
     a = nj_arrays(D, bionj=True)
     b = nj_arrays(D, bionj=True)
     np.testing.assert_array_equal(a[0], b[0])

@@ -14,7 +14,7 @@ from cladewright import errors
 from cladewright.distances import MAX_LISTED, distance_matrix
 from cladewright.distances.counts import state_frequencies
 
-from conftest import make_alignment, simulate_dna
+from simulate import AMINO_ACIDS, make_alignment, mutate, random_sequence, simulate_dna
 
 # (our model, scikit-bio metric, gamma)
 SKBIO_MODELS = [
@@ -134,13 +134,10 @@ def test_jc69_saturates_at_three_quarters():
 def test_protein_models_from_scikit_bio_p_distance(model, formula):
     # reference: skbio pdist on Protein sequences (canonical residues, pairwise deletion)
     rng = np.random.default_rng(8)
-    aa = np.array(list("ACDEFGHIKLMNPQRSTVWY"))
-    root = rng.choice(aa, 200)
+    root = random_sequence(rng, 200, AMINO_ACIDS)
     seqs = []
     for _ in range(6):
-        s = root.copy()
-        hit = rng.random(200) < rng.uniform(0.05, 0.4)
-        s[hit] = rng.choice(aa, hit.sum())
+        s = mutate(rng, root, (0.05, 0.4), AMINO_ACIDS)  # each sequence its own rate, uniform on the range
         s[rng.random(200) < 0.03] = "X"
         s[rng.random(200) < 0.03] = "-"
         seqs.append("".join(s))

@@ -14,7 +14,7 @@ from cladewright.io.readers import read_alignment
 from cladewright.cli import main
 from cladewright.errors import InputError
 
-EXAMPLES = Path(__file__).resolve().parent.parent / "example_alignments"
+EXAMPLES = Path(__file__).resolve().parents[2] / "example_alignments"
 FASTA = EXAMPLES / "glass_snails_coi.fasta"
 NEXUS = EXAMPLES / "glass_snails_coi.nex"
 PROTEIN = EXAMPLES / "glass_snails_shell.fasta"

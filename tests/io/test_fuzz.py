@@ -26,7 +26,7 @@ from cladewright.io.readers import parse_newick, parse_nexus_trees, read_alignme
 from cladewright.matrix import DistanceMatrix
 from cladewright.tree import Tree
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = Path(__file__).resolve().parents[2]
 _spec = importlib.util.spec_from_file_location("fuzz_readers", ROOT / "fuzz" / "fuzz_readers.py")
 fuzz_readers = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(fuzz_readers)

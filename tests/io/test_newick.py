@@ -24,33 +24,17 @@ from cladewright.io.nexus import format_nexus
 from cladewright.io.readers import parse_newick, parse_nexus_trees
 from cladewright.tree import Tree
 
+from simulate import random_join_tree
+
 AWKWARD = ["plain", "with space", "it's", "br(a)ck[e]t", "co:lon", "com,ma", "Übersee ñ 東京",
            "semi;colon", "under_score", "12", "tab\there", "'", "a''b"]
 
 
 def random_tree(rng, names, rooted, support=True):
-    """A random binary tree by random joins, with random lengths and integer
-    support percentages on internal non-root nodes."""
-    n = len(names)
-    m = 2 * n - 1 if rooted else 2 * n - 2
-    parent = np.full(m, -1)
-    pool = list(range(n))
-    nxt = n
-    stop = 1 if rooted else 3
-    while len(pool) > stop:
-        a, b = rng.choice(len(pool), 2, replace=False)
-        parent[pool[a]] = parent[pool[b]] = nxt
-        pool = [x for i, x in enumerate(pool) if i not in (a, b)] + [nxt]
-        nxt += 1
-    if not rooted:
-        for x in pool:
-            parent[x] = nxt
-    length = rng.uniform(0.0, 0.5, m)
-    length[m - 1] = np.nan
-    sup = np.full(m, np.nan)
-    if support:
-        sup[n:m - 1] = rng.integers(0, 101, m - 1 - n)
-    return Tree(parent, length, names, support=sup, rooted=rooted)
+    """A random binary tree by random joins over ``names`` (in order), with random lengths and integer
+    support percentages on internal non-root nodes (each root branch its own value)."""
+    return random_join_tree(rng, len(names), rooted, names=names, shortest=0.0, longest=0.5, support=support,
+                            shuffle=False, one_root_support=False)
 
 
 def our_clusters(tree):

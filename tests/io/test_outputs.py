@@ -34,7 +34,7 @@ from cladewright.errors import InputError
 from cladewright.io.output import atomic_output, write_text_atomic
 from cladewright.io.readers import read_distance_matrix
 
-EXAMPLE = Path(__file__).resolve().parent.parent / "example_alignments" / "glass_snails_coi.fasta"
+EXAMPLE = Path(__file__).resolve().parents[2] / "example_alignments" / "glass_snails_coi.fasta"
 TEXT = "(a:0.1,b:0.2,(c:0.3,d:0.4):0.05);\n"
 
 

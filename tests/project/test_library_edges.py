@@ -26,7 +26,7 @@ from cladewright import Alignment, DistanceMatrix, InputError, build_tree, build
 from cladewright.cli import main
 from cladewright.io.readers import read_distance_matrix
 
-from conftest import make_alignment, simulate_dna
+from simulate import make_alignment, simulate_dna
 
 # ---- item 2: a DistanceMatrix keeps its own, frozen copy --------------------
 

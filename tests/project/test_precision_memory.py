@@ -7,24 +7,19 @@ from cladewright import build_tree, distance_matrix, robinson_foulds
 from cladewright.errors import InputError
 from cladewright.memory import check_fits, estimate_bytes
 
-from conftest import make_alignment, simulate_dna
+from simulate import make_alignment, mutate, random_sequence, simulate_dna
 
 
 @pytest.fixture(scope="module")
 def separated():
     """Four well-separated groups of five (invented data): every internal split is long."""
     rng = np.random.default_rng(21)
-    root = rng.choice(list("ACGT"), 600)
+    root = random_sequence(rng, 600)
     seqs, names = [], []
     for g in range(4):
-        anc = root.copy()
-        hit = rng.random(600) < 0.25
-        anc[hit] = rng.choice(list("ACGT"), hit.sum())
+        anc = mutate(rng, root, 0.25)
         for k in range(5):
-            s = anc.copy()
-            hit = rng.random(600) < 0.02 * (k + 1)
-            s[hit] = rng.choice(list("ACGT"), hit.sum())
-            seqs.append("".join(s))
+            seqs.append("".join(mutate(rng, anc, 0.02 * (k + 1))))
             names.append(f"g{g}_{k}")
     return make_alignment(names, seqs)
 
@@ -56,7 +51,7 @@ def test_estimate_counts_the_matrices():
 def test_a_run_that_cannot_fit_stops_with_the_option_that_would():
     n = 30_000
     single = estimate_bytes(n, method="nj", precision="single")
-    # the library names its parameter; the command line shows it as --precision single (tests/test_run_warnings.py)
+    # the library names its parameter; the command line shows it as --precision single (tests/app/test_run_warnings.py)
     with pytest.raises(InputError, match='precision="single" would fit'):
         check_fits(n, method="nj", available=single + 1)
     with pytest.raises(InputError, match="more memory or fewer taxa"):

@@ -34,7 +34,7 @@ from cladewright.io.readers import parse_newick, parse_nexus_trees, read_alignme
 from cladewright.matrix import DistanceMatrix
 from cladewright.tree import Tree
 
-from conftest import make_alignment
+from simulate import make_alignment
 
 DNA_MODELS = ["p", "jc69", "k2p", "f81", "f84", "t92", "tn93", "logdet", "paralinear"]
 METHODS = ["nj", "bionj", "upgma", "wpgma", "single", "complete"]
@@ -201,7 +201,7 @@ def test_every_printable_ascii_character_in_names(tmp_path):
     assert list(read_alignment(_fasta(tmp_path, seqs, fasta_names)).names) == fasta_names
 
     # NEXUS names are case-insensitive (Maddison et al. 1997), so the one-letter lower-case names get a
-    # prefix: 'a' and 'A' would be one name there (tests/test_nexus_strict.py checks that error).
+    # prefix: 'a' and 'A' would be one name there (tests/io/test_nexus_strict.py checks that error).
     names = [x if not (len(x) == 1 and x.islower()) else f"lower-{x}" for x in _every_printable_name_set(space=True)]
     rows = "\n".join("'" + x.replace("'", "''") + "' " + "ACGT"[i % 4] * 3 for i, x in enumerate(names))
     text = f"#NEXUS\nBEGIN DATA;\nDIMENSIONS NTAX={len(names)} NCHAR=3;\nMATRIX\n{rows}\n;\nEND;\n"
@@ -522,7 +522,7 @@ def test_full_disk_during_a_bootstrap_keeps_a_resumable_replicate_file(tmp_path,
     # complete lines (and at most one torn line) that --resume continues (docs/support.md)
     from cladewright.resampling import replicate_file
 
-    example = Path(__file__).resolve().parent.parent / "example_alignments" / "glass_snails_coi.fasta"
+    example = Path(__file__).resolve().parents[2] / "example_alignments" / "glass_snails_coi.fasta"
     args = ["tree", example, "-b", 60, "--seed", 5, "--workers", 1]
     whole, whole_reps = tmp_path / "whole.nwk", tmp_path / "whole_reps.nwk"
     assert _run(args + ["-o", whole, "--save-replicates", whole_reps]).exit_code == 0

@@ -19,32 +19,25 @@ from cladewright.errors import InputError
 from cladewright.io import read_trees
 from cladewright.resampling import bootstrap, replicate_weights
 
-from conftest import make_alignment
+from simulate import make_alignment, mutate, random_sequence
 
-EXAMPLE = Path(__file__).resolve().parent.parent / "example_alignments" / "glass_snails_coi.fasta"
-
-
-def _mutate(rng, seq, rate):
-    s = seq.copy()
-    hit = rng.random(s.size) < rate
-    s[hit] = rng.choice(list("ACGT"), hit.sum())
-    return s
+EXAMPLE = Path(__file__).resolve().parents[2] / "example_alignments" / "glass_snails_coi.fasta"
 
 
 def clade_and_star(seed, length=400):
     """Five sequences below one long shared branch (a clade), seven on a star (invented data)."""
     rng = np.random.default_rng(seed)
-    root = rng.choice(list("ACGT"), length)
-    clade_anc = _mutate(rng, root, 0.35)
-    seqs = [_mutate(rng, clade_anc, 0.04) for _ in range(5)] + [_mutate(rng, root, 0.12) for _ in range(7)]
+    root = random_sequence(rng, length)
+    clade_anc = mutate(rng, root, 0.35)
+    seqs = [mutate(rng, clade_anc, 0.04) for _ in range(5)] + [mutate(rng, root, 0.12) for _ in range(7)]
     names = [f"in{i}" for i in range(5)] + [f"out{i}" for i in range(7)]
     return make_alignment(names, ["".join(s) for s in seqs])
 
 
 def star(seed, n=12, length=300):
     rng = np.random.default_rng(seed)
-    root = rng.choice(list("ACGT"), length)
-    seqs = ["".join(_mutate(rng, root, 0.15)) for _ in range(n)]
+    root = random_sequence(rng, length)
+    seqs = ["".join(mutate(rng, root, 0.15)) for _ in range(n)]
     return make_alignment([f"t{i}" for i in range(n)], seqs)
 
 

@@ -24,7 +24,7 @@ from cladewright.errors import InputError
 from cladewright.memory import replicate_tree_bytes
 from cladewright.resampling import bootstrap, replicate_weights
 
-from conftest import simulate_dna
+from simulate import simulate_dna
 
 BASES = np.array(list("ACGT"))
 

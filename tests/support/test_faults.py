@@ -17,7 +17,7 @@ from cladewright.cli import main
 from cladewright.io.readers import parse_newick, read_alignment
 from cladewright.resampling import bootstrap
 
-EXAMPLE = Path(__file__).resolve().parent.parent / "example_alignments" / "glass_snails_coi.fasta"
+EXAMPLE = Path(__file__).resolve().parents[2] / "example_alignments" / "glass_snails_coi.fasta"
 
 
 def _wait_for_lines(path, count, timeout=120):

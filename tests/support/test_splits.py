@@ -1,7 +1,7 @@
 """Tests of split support, consensus and tree distances against outside references.
 
-Random trees are made here with numpy (random joins, random nearest-neighbour
-interchanges) and handed to DendroPy as Newick written by a small writer in
+Random trees are made with numpy (random joins in tests/simulate.py, random nearest-neighbour
+interchanges here) and handed to DendroPy as Newick written by a small writer in
 this file, so the reference side shares no code with the module under test.
 """
 
@@ -24,29 +24,15 @@ from cladewright.support import (
 )
 from cladewright.tree import Tree
 
+from simulate import random_join_tree
+
 
 # ---- random trees ------------------------------------------------------------
 
 def random_tree(rng, n, rooted=False):
-    """Random joins of n leaves; unrooted trees keep a root of degree 3."""
-    parent = np.full(2 * n - 1, -1, dtype=np.int64)
-    active = list(range(n))
-    nxt = n
-    stop = 1 if rooted else 3
-    while len(active) > stop:
-        a, b = sorted(rng.choice(len(active), 2, replace=False), reverse=True)
-        parent[active[a]] = parent[active[b]] = nxt
-        active.pop(a)
-        active.pop(b)
-        active.append(nxt)
-        nxt += 1
-    for v in active if not rooted else []:
-        parent[v] = nxt
-    m = nxt + (0 if rooted else 1)
-    parent = parent[:m]
-    length = rng.exponential(0.1, m)
-    length[parent < 0] = np.nan
-    return Tree(parent, length, [f"t{i}" for i in range(n)], rooted=rooted)
+    """Random joins of n leaves t0, t1, ... (in order), exponential lengths (mean 0.1), no support;
+    unrooted trees keep a root of degree 3."""
+    return random_join_tree(rng, n, rooted, mean_length=0.1, support=False, shuffle=False)
 
 
 def nni(rng, tree, moves):

@@ -18,19 +18,12 @@ from cladewright.matrix import DistanceMatrix
 from cladewright.rooting import midpoint_root
 from cladewright.tree import Tree
 
-from conftest import random_join_tree
+from simulate import random_join_tree, random_matrix
 
 
 def partition(labels, names):
     labels = np.asarray(labels)
     return {frozenset(names[i] for i in np.flatnonzero(labels == g)) for g in np.unique(labels)}
-
-
-def random_matrix(rng, n):
-    a = rng.random((n, n))
-    a = (a + a.T) / 2
-    np.fill_diagonal(a, 0.0)
-    return a
 
 
 def random_tree(rng, n, rooted):
@@ -42,7 +35,7 @@ def test_upgma_groups_equal_fcluster(seed):
     # reference: scipy.cluster.hierarchy.fcluster(linkage(condensed, "average"), t, "distance")
     rng = np.random.default_rng(seed)
     n = int(rng.integers(3, 45))
-    values = random_matrix(rng, n)
+    values = random_matrix(rng, n, mirror="mean")
     names = [f"s{i}" for i in range(n)]
     tree = build_tree(DistanceMatrix(names, values), "upgma")
     z = linkage(squareform(values, checks=False), "average")

@@ -24,7 +24,7 @@ from cladewright.pipeline import tree_from_alignment
 from cladewright.polytomies import attach_identical, collapse_zero_branches, resolve_polytomies
 from cladewright.tree import Tree
 
-from conftest import make_alignment, random_join_tree, simulate_dna
+from simulate import make_alignment, random_join_tree, simulate_dna
 
 EXAMPLE = "example_alignments/glass_snails_coi.fasta"
 

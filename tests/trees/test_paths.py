@@ -1,7 +1,7 @@
 """The shared longest-path pass (cladewright.paths) against a plain all-pairs computation written here:
 every clade's diameter is the largest leaf-to-leaf path length between two of its leaves, and every node's
 height the longest path down to one of its leaves (definitions; Sokal & Rohlf 1962, Taxon 11:33-40, for the
-cophenetic values of a dendrogram). The test trees are invented (random joins, tests/conftest.py)."""
+cophenetic values of a dendrogram). The test trees are invented (random joins, tests/simulate.py)."""
 
 import math
 
@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 from cladewright.paths import longest_paths
-from conftest import random_join_tree
+from simulate import random_join_tree
 
 
 def _plain(parent, length, n):

@@ -16,7 +16,7 @@ from cladewright.errors import InputError
 from cladewright.rooting import midpoint_root, outgroup_root, root_tree
 from cladewright.tree import Tree
 
-from conftest import random_join_tree
+from simulate import random_join_tree
 
 
 def random_tree(rng, n, rooted):

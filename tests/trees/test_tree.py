@@ -18,7 +18,7 @@ from cladewright.io import read_trees
 from cladewright.io.readers import parse_newick
 from cladewright.tree import Tree
 
-from conftest import random_join_tree
+from simulate import random_join_tree
 
 
 def random_tree(rng, n, rooted, prefix="t"):
