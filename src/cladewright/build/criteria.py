@@ -45,11 +45,12 @@ Fitch, W. M. & Margoliash, E. (1967) Science 155:279–284.
 
 from __future__ import annotations
 
-from typing import Any, Literal, get_args
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
 
+from ..choices import CRITERIA, LENGTH_CRITERIA, Criterion, LengthCriterion
 from ..errors import InputError
 from .._kernels.criteria import subtree_pair_sums
 from ..matrix import DistanceMatrix
@@ -59,13 +60,6 @@ from .weighted import fit_of_lengths, weighted_least_squares
 
 __all__ = ["Criterion", "CRITERIA", "LengthCriterion", "LENGTH_CRITERIA", "fit_lengths", "fit_lengths_with_info",
            "tree_length", "balanced_lengths", "ols_lengths"]
-
-#: Criteria for the branch lengths of a given tree (``criterion``).
-Criterion = Literal["bme", "ols", "wls"]
-CRITERIA: tuple[Criterion, ...] = get_args(Criterion)
-#: Criteria whose tree length is a minimum-evolution score (``tree_length``).
-LengthCriterion = Literal["bme", "ols"]
-LENGTH_CRITERIA: tuple[LengthCriterion, ...] = get_args(LengthCriterion)
 
 
 def balanced_lengths(g: LeafRootedTree) -> NDArray[np.float64]:

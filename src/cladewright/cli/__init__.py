@@ -2,14 +2,14 @@
 
 :mod:`.app` holds the command group :func:`main` and what every command shares;
 each command module registers its commands on it when imported here:
-:mod:`.build` (distances, tree), :mod:`.support` (support, consensus) and
+:mod:`.build` (distances, tree), :mod:`.lengths` (lengths), :mod:`.support` (support, consensus) and
 :mod:`.tools` (root, compare, clusters, draw, show). :mod:`.summary` words the
 summaries the commands print. The console script ``cladewright`` runs :func:`main`.
 """
 
 from __future__ import annotations
 
-from . import build, support, tools  # noqa: F401 - each registers its commands on main
+from . import build, lengths, support, tools  # noqa: F401 - each registers its commands on main
 from .app import main
 
 __all__ = ["main"]
