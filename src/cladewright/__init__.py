@@ -31,7 +31,8 @@ from .distances import MODELS, distance_matrix
 from .alignment import distinct_sequences, identical_groups
 
 # Trees: building, fit to the distances, the whole alignment-to-tree path, polytomies.
-from .build import METHODS, build_tree, build_tree_with_info, fit_statistic
+from .build import METHODS, build_tree, build_tree_with_info, fit_statistic, refine_tree, refine_tree_with_info
+from .choices import REFINEMENTS
 from .build.criteria import fit_lengths, fit_lengths_with_info, tree_length
 from .build.weighted import weighted_fit
 from .pipeline import tree_from_alignment
@@ -67,6 +68,7 @@ __all__ = [
     "identical_groups", "distinct_sequences",
     # trees
     "build_tree", "build_tree_with_info", "METHODS", "fit_statistic", "tree_from_alignment",
+    "refine_tree", "refine_tree_with_info", "REFINEMENTS",
     "fit_lengths", "fit_lengths_with_info", "tree_length", "weighted_fit",
     "collapse_zero_branches", "resolve_polytomies", "attach_identical",
     # rooting

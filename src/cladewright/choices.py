@@ -10,7 +10,8 @@ References
 Lance & Williams (1967) Computer Journal 9:373-380 (the linkage family);
 Saitou & Nei (1987) Mol. Biol. Evol. 4:406-425 (neighbour joining); Gascuel
 (1997) Mol. Biol. Evol. 14:685-695 (BIONJ); Felsenstein (1985) Evolution
-39:783-791 (FBP); Lemoine et al. (2018) Nature 556:452-456 (TBE).
+39:783-791 (FBP); Lemoine et al. (2018) Nature 556:452-456 (TBE); Desper & Gascuel
+(2002) J. Comput. Biol. 9:687-705 (greedy BME insertion, NNI).
 """
 
 from __future__ import annotations
@@ -19,10 +20,11 @@ from typing import Final, Literal, Union, get_args
 
 import numpy as np
 
-__all__ = ["LINKAGE_METHODS", "JOINING_METHODS", "METHODS", "NEGATIVE_RULES", "PRECISIONS", "ALPHABETS",
+__all__ = ["CRITERIA", "LENGTH_CRITERIA", "Criterion", "LengthCriterion", "INSERTION_METHODS", "REFINEMENTS",
+           "LINKAGE_METHODS", "JOINING_METHODS", "METHODS", "NEGATIVE_RULES", "PRECISIONS", "ALPHABETS",
            "GAP_MODES", "FREQ_MODES", "SATURATED_MODES", "SUPPORT_MEASURES", "TREE_FORMATS", "CLUSTER_ROOTS",
            "WARNING_KINDS",
-           "LinkageMethod", "JoiningMethod", "Method", "NegativeRule", "Precision", "Alphabet", "GapMode",
+           "LinkageMethod", "JoiningMethod", "InsertionMethod", "Method", "Refinement", "NegativeRule", "Precision", "Alphabet", "GapMode",
            "FreqMode", "SaturatedMode", "SupportMeasure", "TreeFormat", "ClusterRoot", "WarningKind"]
 
 # Each vocabulary is a typing.Literal (PEP 586) for annotations, and the tuple
@@ -34,9 +36,24 @@ LINKAGE_METHODS: Final[tuple[LinkageMethod, ...]] = get_args(LinkageMethod)
 #: Tree methods that join neighbours: an unrooted tree with a basal trifurcation.
 JoiningMethod = Literal["nj", "bionj"]
 JOINING_METHODS: Final[tuple[JoiningMethod, ...]] = get_args(JoiningMethod)
+#: Tree methods that put taxa one at a time on the best branch: greedy balanced minimum evolution
+#: (Desper & Gascuel 2002); an unrooted tree with a basal trifurcation.
+InsertionMethod = Literal["bme"]
+INSERTION_METHODS: Final[tuple[InsertionMethod, ...]] = get_args(InsertionMethod)
 #: Every tree method (build_tree's ``method``).
-Method = Union[LinkageMethod, JoiningMethod]
-METHODS: Final[tuple[Method, ...]] = LINKAGE_METHODS + JOINING_METHODS
+Method = Union[LinkageMethod, JoiningMethod, InsertionMethod]
+METHODS: Final[tuple[Method, ...]] = LINKAGE_METHODS + JOINING_METHODS + INSERTION_METHODS
+
+#: Topology searches after the start (build_tree's ``refine``): none, or nearest-neighbour
+#: interchanges to a local optimum (Desper & Gascuel 2002). ``refine=None`` means "none".
+Refinement = Literal["none", "nni"]
+REFINEMENTS: Final[tuple[Refinement, ...]] = get_args(Refinement)
+
+#: Criteria for the branch lengths of a given tree (build/criteria.py); tree lengths take the first two.
+Criterion = Literal["bme", "ols", "wls"]
+CRITERIA: Final[tuple[Criterion, ...]] = get_args(Criterion)
+LengthCriterion = Literal["bme", "ols"]
+LENGTH_CRITERIA: Final[tuple[LengthCriterion, ...]] = get_args(LengthCriterion)
 
 #: What becomes of a negative branch length (``negative``): set to zero, or kept as computed.
 NegativeRule = Literal["zero", "keep"]

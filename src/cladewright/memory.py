@@ -30,9 +30,10 @@ DISTANCE_WORK = 150 * 2**20
 TREE_BASE = 2048
 TREE_PER_TAXON = 256
 #: n x n matrices a tree method holds besides the input: the linkage methods one triangle (half a matrix),
-#: NJ its working copy, BIONJ also its variances (Gascuel 1997).
+#: NJ its working copy, BIONJ also its variances (Gascuel 1997); greedy BME insertion none of its own
+#: beside the (2n)^2 table of subtree averages it shares with the search (estimate_bytes counts that).
 WORKING_MATRICES: dict[str, float] = {**dict.fromkeys(LINKAGE_METHODS, 0.5), **dict.fromkeys(JOINING_METHODS, 1),
-                                      "bionj": 2}
+                                      "bionj": 2, "bme": 0}
 #: The method suggested when BIONJ does not fit: the same search without the variance matrix.
 LEANER: dict[str, str] = {"bionj": "nj"}
 
@@ -44,7 +45,8 @@ def _matrices(method: str | None) -> float:
     return WORKING_MATRICES.get(str(method).lower(), 0.5)
 
 
-def estimate_bytes(n: int, *, method: str | None = None, precision: str = "double", workers: int = 0) -> int:
+def estimate_bytes(n: int, *, method: str | None = None, precision: str = "double", workers: int = 0,
+                   refine: str | None = None) -> int:
     """Peak bytes of a run on ``n`` taxa.
 
     Parameters
@@ -57,11 +59,18 @@ def estimate_bytes(n: int, *, method: str | None = None, precision: str = "doubl
     workers : int
         Bootstrap workers (0: no bootstrap); each holds a replicate's matrix
         and the method's working copies of its own.
+    refine : {None, "none", "nni"}
+        A topology search after the start holds the table of subtree
+        averages, (2n)^2 float64 numbers (Desper & Gascuel 2002), once the
+        start's own working copies are freed.
     """
     item = 8 if precision == "double" else 4
     square = n * n * item
-    main = PROCESS_BASE + DISTANCE_WORK + square * (1 + _matrices(method))
-    per_worker = DISTANCE_WORK + square * (1 + _matrices(method))  # threads of the same process
+    work = square * _matrices(method)
+    if refine not in (None, "none") or str(method).lower() == "bme":
+        work = max(work, 4 * n * n * 8)
+    main = PROCESS_BASE + DISTANCE_WORK + square + work
+    per_worker = DISTANCE_WORK + square + work  # threads of the same process
     return int(main + workers * per_worker)
 
 
@@ -134,24 +143,24 @@ def check_replicates_fit(n: int, replicates: int, *, method: str | None = None, 
 
 
 def check_fits(n: int, *, method: str | None = None, precision: str = "double", workers: int = 0,
-               available: int | None = None) -> None:
+               available: int | None = None, refine: str | None = None) -> None:
     """Raise :class:`InputError` when the run cannot fit, naming what would."""
     available = available_bytes() if available is None else available
     if available is None:
         return
-    need = estimate_bytes(n, method=method, precision=precision, workers=workers)
+    need = estimate_bytes(n, method=method, precision=precision, workers=workers, refine=refine)
     if need <= available:
         return
     # the fixes in the library's terms (parameters); the command line shows them as its options
     fixes = []
-    if precision == "double" and estimate_bytes(n, method=method, precision="single", workers=workers) <= available:
+    if precision == "double" and estimate_bytes(n, method=method, precision="single", workers=workers, refine=refine) <= available:
         fixes.append('precision="single"')
     for w in range(workers - 1, 0, -1):
-        if estimate_bytes(n, method=method, precision=precision, workers=w) <= available:
+        if estimate_bytes(n, method=method, precision=precision, workers=w, refine=refine) <= available:
             fixes.append(f"workers={w}")
             break
     leaner = LEANER.get(str(method).lower()) if method else None
-    if leaner and estimate_bytes(n, method=leaner, precision=precision, workers=workers) <= available:
+    if leaner and estimate_bytes(n, method=leaner, precision=precision, workers=workers, refine=refine) <= available:
         fixes.append(f'method="{leaner}"')
     hint = ("; " + " or ".join(fixes) + " would fit") if fixes else "; use a machine with more memory or fewer taxa"
     raise InputError(f"{n} taxa need about {_gib(need)} of memory but {_gib(available)} is available{hint}")

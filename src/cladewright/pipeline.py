@@ -23,13 +23,14 @@ from numpy.typing import ArrayLike, DTypeLike, NDArray
 
 from .alignment import distinct_sequences
 from .build import build_tree_with_info
-from .choices import JOINING_METHODS, METHODS
+from .choices import LINKAGE_METHODS, METHODS
 from .distances import ZERO_WHEN_IDENTICAL, distance_matrix, resolve_model
 from .errors import CladewrightWarning
 from .polytomies import ZERO_TOLERANCE, attach_identical, collapse_zero_branches
 
 if TYPE_CHECKING:
     from .alignment import Alignment
+    from .build.criteria import LengthCriterion
     from .matrix import DistanceMatrix
     from .tree import Tree
 
@@ -84,7 +85,8 @@ def identical_info(group: NDArray[np.int64]) -> dict[str, int]:
 
 def tree_from_alignment(alignment: Alignment, model: str = "k2p", method: str = "nj", *, gamma: float | None = None,
                         gaps: str = "pairwise", freqs: str = "alignment", saturated: str = "error",
-                        negative: str = "zero", dtype: DTypeLike = np.float64, progress: bool = False
+                        negative: str = "zero", dtype: DTypeLike = np.float64, progress: bool = False,
+                        refine: str | None = None, criterion: LengthCriterion | None = None
                         ) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
     """Distances and a tree for an alignment, identical sequences entered once.
 
@@ -92,7 +94,7 @@ def tree_from_alignment(alignment: Alignment, model: str = "k2p", method: str = 
     ----------
     alignment : Alignment
     model, gamma, gaps, freqs, saturated : see :func:`cladewright.distance_matrix`
-    method, negative : see :func:`cladewright.build_tree`
+    method, negative, refine, criterion : see :func:`cladewright.build_tree`
     dtype : numpy dtype
         float64, or float32 for half the memory.
     progress : bool
@@ -125,7 +127,7 @@ def tree_from_alignment(alignment: Alignment, model: str = "k2p", method: str = 
     distinct, group = split_identical(alignment, model)
     tree, info, dm = distinct_tree(distinct, model, method, gamma=gamma, gaps=gaps, freqs=freqs,
                                    saturated=saturated, negative=negative, dtype=dtype, progress=progress,
-                                   n_sequences=alignment.n_taxa)
+                                   n_sequences=alignment.n_taxa, refine=refine, criterion=criterion)
     info.update(identical_info(group), negative=negative)
     info["warnings"] = run_warnings(info, alignment)
     return finish_tree(tree, alignment.names, group, zero_tolerance(dtype)), info, dm
@@ -134,7 +136,8 @@ def tree_from_alignment(alignment: Alignment, model: str = "k2p", method: str = 
 def distinct_tree(distinct: Alignment, model: str, method: str, *, gamma: float | None = None, gaps: str = "pairwise",
                   freqs: str = "alignment", saturated: str = "error", negative: str = "zero",
                   dtype: DTypeLike = np.float64, weights: ArrayLike | None = None, fit: bool = True,
-                  serial: bool = False, progress: bool = False, n_sequences: int | None = None
+                  serial: bool = False, progress: bool = False, n_sequences: int | None = None,
+                  refine: str | None = None, criterion: LengthCriterion | None = None
                   ) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
     """Distances and the tree of the distinct sequences (see :func:`split_identical`).
 
@@ -146,6 +149,7 @@ def distinct_tree(distinct: Alignment, model: str, method: str, *, gamma: float 
         Site-pattern weights of a bootstrap replicate.
     fit, serial, progress :
         Compute the fit statistic; count on this thread only; show progress.
+    refine, criterion : see :func:`cladewright.build_tree`
     n_sequences : int, optional
         How many sequences the rows stand for; with three or more of them
         but fewer than three distinct, the tree is a star or one branch
@@ -161,7 +165,7 @@ def distinct_tree(distinct: Alignment, model: str, method: str, *, gamma: float 
     dm = distance_matrix(distinct, model, gamma, gaps, freqs, saturated=saturated, weights=weights, dtype=dtype,
                          serial=serial, progress=progress)
     tree, info = build_tree_with_info(dm, method, negative, sizes=distinct.multiplicity, source=distinct.source,
-                                      fit=fit)
+                                      fit=fit, refine=refine, criterion=criterion)
     info.update(dm.info)
     return tree, info, dm
 
@@ -181,12 +185,12 @@ def _few_distinct(distinct: Alignment, model: str, gamma: float | None, gaps: st
         dm = DistanceMatrix(names, np.zeros((1, 1), dtype=dtype), validate=False, dtype=dtype,
                             info={"model": resolve_model(model, distinct.alphabet).name, "gamma": gamma,
                                   "gaps": gaps, "freqs": None, "saturated": 0, "cap": None})
-        tree = Tree([-1], [np.nan], names, rooted=m not in JOINING_METHODS)
+        tree = Tree([-1], [np.nan], names, rooted=m in LINKAGE_METHODS)
     else:
         dm = distance_matrix(distinct, model, gamma, gaps, freqs, saturated=saturated, weights=weights,
                              dtype=dtype)
         half = float(dm.values[0, 1]) / 2.0
-        tree = Tree([2, 2, -1], [half, half, np.nan], names, rooted=m not in JOINING_METHODS)
+        tree = Tree([2, 2, -1], [half, half, np.nan], names, rooted=m in LINKAGE_METHODS)
     info = {"method": m, "negative_branches": 0, "fit_name": None, "fit_value": None}
     info.update(dm.info)
     return tree, info, dm

@@ -245,6 +245,14 @@ def report_html(*, alignment: Alignment | None = None, dm: DistanceMatrix, tree:
         fit = [("fit statistic", "not defined (fewer than three distinct sequences, or every distance zero)")]
     else:
         fit = [("fit statistic", "not computed")]
+    if info.get("criterion") and info.get("length_after") is not None:
+        # the criterion's tree length of the start and of the refined tree (Desper & Gascuel 2002)
+        crit = f"{str(info['criterion']).upper()} tree length"
+        if info.get("refine") not in (None, "none") and info.get("length_before") is not None:
+            fit.append((crit, f"{info['length_before']:.6g} before, {info['length_after']:.6g} after "
+                              f"({info.get('moves', 0)} interchanges)"))
+        else:
+            fit.append((crit, f"{info['length_after']:.6g}"))
     x, y, kids, leaf_rows, _ = tree_layout(tree, True)
     order_names = [tree.leaf_names[i] for i in leaf_rows.tolist()]
     tree_svg = _svg(tree_figure(tree, highlight_below=highlight_below), "cladewright-tree")

@@ -21,7 +21,7 @@ from skbio.tree import nj as skbio_nj
 from cladewright import choices
 from cladewright.alignment import Alignment, encode
 from cladewright.build import LINKAGE_METHODS as LANCE_WILLIAMS_ROWS
-from cladewright.build import METHODS
+from cladewright.build import METHODS, build_tree
 from cladewright.cli import main
 from cladewright.cli.app import PARAMETER_OPTIONS, as_options
 from cladewright.distances import distance_matrix
@@ -154,6 +154,10 @@ def _library_messages(tmp_path):
         _message(lambda: bootstrap(near, 2, resume=True, progress=False)),  # resume without a file
         _message(lambda: (tmp_path / "reps.nwk").write_text("") and None
                  or bootstrap(near, 2, save_replicates=tmp_path / "reps.nwk", progress=False)),
+        # a search on a rooted linkage tree; a criterion without a search or a bme start
+        _message(lambda: build_tree(distance_matrix(near, "p"), "upgma", refine="nni")),
+        _message(lambda: build_tree(distance_matrix(near, "p"), "nj", criterion="bme")),
+        _message(lambda: build_tree(distance_matrix(near, "p"), "nj", criterion="ols")),
     ]
 
 
@@ -201,7 +205,7 @@ def test_the_command_line_shows_its_options(tmp_path):
 def test_each_vocabulary_has_one_home():
     # source: common practice (one definition per vocabulary); Lance & Williams (1967) Table 1 for the linkage
     # family, Saitou & Nei (1987) and Gascuel (1997) for the joining methods
-    assert METHODS == choices.METHODS == choices.LINKAGE_METHODS + choices.JOINING_METHODS
+    assert METHODS == choices.METHODS == choices.LINKAGE_METHODS + choices.JOINING_METHODS + choices.INSERTION_METHODS
     assert set(LANCE_WILLIAMS_ROWS) == set(choices.LINKAGE_METHODS)
     assert set(WORKING_MATRICES) == set(choices.METHODS)
     assert choices.PRECISIONS == {"double": np.float64, "single": np.float32}
@@ -215,5 +219,8 @@ def test_each_vocabulary_has_one_home():
     assert tuple(options["alphabet"].type.choices) == choices.ALPHABETS
     assert tuple(options["measure"].type.choices) == choices.SUPPORT_MEASURES
     assert tuple(options["fmt"].type.choices) == choices.TREE_FORMATS
+    assert tuple(options["refine"].type.choices) == choices.REFINEMENTS
+    assert tuple(options["criterion"].type.choices) == choices.LENGTH_CRITERIA
+    assert tuple({p.name: p for p in main.commands["lengths"].params}["criterion"].type.choices) == choices.CRITERIA
     clusters = {p.name: p for p in main.commands["clusters"].params}
     assert tuple(clusters["rooting"].type.choices) == choices.CLUSTER_ROOTS

@@ -156,7 +156,7 @@ def test_build_tree_shapes():
         tree = build_tree(dm, method)
         assert tree.leaf_names == dm.names
         kids = len(tree.children(tree.root))
-        if method in ("nj", "bionj"):
+        if method in ("nj", "bionj", "bme"):  # bme: greedy insertion, unrooted (Desper & Gascuel 2002)
             assert not tree.rooted and kids == 3 and tree.n_nodes == 2 * 15 - 2
         else:
             assert tree.rooted and kids == 2 and tree.n_nodes == 2 * 15 - 1

@@ -12,7 +12,8 @@ from typing import TYPE_CHECKING
 
 import click
 
-from ..choices import JOINING_METHODS, LINKAGE_METHODS, NEGATIVE_RULES, PRECISIONS, SUPPORT_MEASURES
+from ..choices import (INSERTION_METHODS, JOINING_METHODS, LINKAGE_METHODS, NEGATIVE_RULES, PRECISIONS, REFINEMENTS,
+                       SUPPORT_MEASURES)
 from ..distances import MODELS
 from ..errors import InputError
 from ..matrix import DistanceMatrix
@@ -23,6 +24,7 @@ from .summary import distance_summary, shown_warnings, tree_summary
 
 if TYPE_CHECKING:
     from ..alignment import Alignment
+    from ..build.criteria import LengthCriterion
     from ..resampling import BootstrapResult
     from .app import Context
 
@@ -93,8 +95,14 @@ def _check_outputs(input_path: str, output: str, save_replicates: str | None, re
 @main.command(epilog=MODEL_HELP)
 @click.argument("input_path", metavar="INPUT")
 @click.option("--output", "-o", required=True, metavar="OUT", help="Tree file to write ('-': stdout).")
-@click.option("--method", type=click.Choice(JOINING_METHODS + LINKAGE_METHODS),
-              default="nj", show_default=True, help="Tree-building method.")
+@click.option("--method", type=click.Choice(JOINING_METHODS + INSERTION_METHODS + LINKAGE_METHODS),
+              default="nj", show_default=True,
+              help="Tree-building method (bme: greedy balanced minimum evolution insertion).")
+@click.option("--refine", type=click.Choice(REFINEMENTS), default="none", show_default=True,
+              help="Topology search after an nj, bionj or bme start: nearest-neighbour interchanges (nni).")
+@click.option("--criterion", type=click.Choice(("bme", "ols")), default=None,
+              help="Criterion of --refine and of the lengths of refined and bme trees: balanced minimum "
+                   "evolution (default) or ordinary least squares.")
 @model_options
 @click.option("--negative", type=click.Choice(NEGATIVE_RULES), default="zero", show_default=True,
               help="Negative NJ/BIONJ branch lengths: set to zero, or keep as computed.")
@@ -119,7 +127,8 @@ def _check_outputs(input_path: str, output: str, save_replicates: str | None, re
 @tree_output_options
 @click.pass_obj
 @guarded
-def tree(obj: Context, input_path: str, output: str, method: str, model: str, gamma: float | None, gaps: str,
+def tree(obj: Context, input_path: str, output: str, method: str, refine: str, criterion: LengthCriterion | None,
+         model: str, gamma: float | None, gaps: str,
          freqs: str, saturated: str, alphabet: str | None, precision: str, negative: str, root_spec: str | None,
          replicates: int, seed: int | None, workers: int | None, measure: str, save_replicates: str | None,
          resume: bool, scheduler: str | None, report_path: str | None, binary: bool, fmt: str | None,
@@ -139,7 +148,7 @@ def tree(obj: Context, input_path: str, output: str, method: str, model: str, ga
     else:
         assert dm is not None  # read_input gives an alignment or a matrix
         n_taxa = len(dm.names)
-    check_fits(n_taxa, method=method, precision=precision,
+    check_fits(n_taxa, method=method, precision=precision, refine=refine,
                workers=(workers or os.cpu_count() or 1) if replicates and scheduler is None else 0)
     boot: BootstrapResult | None = None
     if replicates:
@@ -151,16 +160,19 @@ def tree(obj: Context, input_path: str, output: str, method: str, model: str, ga
         boot = bootstrap(aln, replicates, model=model, method=method, gamma=gamma, gaps=gaps, freqs=freqs,
                          saturated=saturated, negative=negative, seed=seed, workers=workers, support=measure,
                          save_replicates=save_replicates, resume=resume, scheduler=scheduler,
-                         progress=not obj.quiet, precision=precision)
+                         progress=not obj.quiet, precision=precision, refine=refine,
+                         criterion=criterion)
         result, info, dm = boot.tree, boot.info, boot.matrix
         assert dm is not None  # bootstrap() always returns the matrix of the original data
     elif dm is None:
         assert aln is not None  # read_input gives an alignment or a matrix
         result, info, dm = tree_from_alignment(aln, model, method, gamma=gamma, gaps=gaps, freqs=freqs,
                                                saturated=saturated, negative=negative,
-                                               dtype=PRECISIONS[precision], progress=not obj.quiet)
+                                               dtype=PRECISIONS[precision], progress=not obj.quiet, refine=refine,
+                                               criterion=criterion)
     else:
-        result, info = build_tree_with_info(dm, method, negative, source=input_path)
+        result, info = build_tree_with_info(dm, method, negative, source=input_path, refine=refine,
+                                            criterion=criterion)
         info.update(dm.info)
         result = collapse_zero_branches(result, zero_tolerance(dm.values.dtype))
     info["negative"] = negative

@@ -67,7 +67,16 @@ def tree_summary(aln: Alignment | None, dm: DistanceMatrix, info: Mapping[str, A
         lines.append(f"model     {model}" + (f" + gamma (alpha {info['gamma']:g})" if info.get("gamma") else ""))
     else:
         lines.append(f"taxa      {len(dm.names)} (distance matrix)")
-    lines.append(f"method    {info['method']}")
+    lines.append(f"method    {info['method']}" + (f", refined by {info['refine']}" if info.get("refine") not in
+                                                      (None, "none") else ""))
+    if info.get("criterion") and info.get("length_before") is not None:
+        # the criterion's tree length of the start and of the refined tree (Desper & Gascuel 2002)
+        crit = str(info["criterion"]).upper()
+        if info.get("refine") not in (None, "none"):
+            lines.append(f"length    {crit} tree length {info['length_before']:.6g} before, "
+                         f"{info['length_after']:.6g} after ({info['moves']} interchanges)")
+        else:
+            lines.append(f"length    {crit} tree length {info['length_after']:.6g}")
     if info.get("fit_name") and info.get("fit_value") is not None:
         lines.append(f"fit       {info['fit_name']} {info['fit_value']:.4g}")
     elif info.get("fit_name") or info.get("identical_groups"):

@@ -47,7 +47,8 @@ class ReplicateJob:
     weights: NDArray[np.int64]    # (P,) sites showing each pattern
     alphabet: Alphabet
     seed: int
-    settings: tuple[Any, ...]     # (model, gamma, gaps, freqs, saturated, method, negative, precision)
+    settings: tuple[Any, ...]     # (model, gamma, gaps, freqs, saturated, method, negative, precision, refine,
+    #                               criterion)
     source: str                   # the alignment's file, for messages
     all_names: tuple[str, ...]    # every sequence, in the alignment's order
     group: NDArray[np.int64]      # the distinct row standing for each sequence
@@ -68,7 +69,7 @@ class ReplicateJob:
             The distinct row standing for each sequence of ``alignment``.
         seed : int
         settings : tuple
-            (model, gamma, gaps, freqs, saturated, method, negative, precision).
+            (model, gamma, gaps, freqs, saturated, method, negative, precision, refine, criterion).
 
         Returns
         -------
@@ -116,12 +117,12 @@ def replicate_tree(job: ReplicateJob, index: int) -> ReplicateResult:
     """
     from ..pipeline import distinct_tree, finish_tree, zero_tolerance
 
-    model, gamma, gaps, freqs, saturated, method, negative, precision = job.settings
+    model, gamma, gaps, freqs, saturated, method, negative, precision, refine, criterion = job.settings
     w = replicate_weights(job.weights, job.seed, index)
     dtype = PRECISIONS[precision]
     tree, _, dm = distinct_tree(job.alignment(index), model, method, gamma=gamma, gaps=gaps, freqs=freqs,
                                 saturated="cap", negative=negative, dtype=dtype, weights=w, fit=False,
-                                serial=True, n_sequences=len(job.all_names))
+                                serial=True, n_sequences=len(job.all_names), refine=refine, criterion=criterion)
     # identical sequences back as polytomies, branches of length zero contracted, as in the main tree
     tree = finish_tree(tree, job.all_names, job.group, zero_tolerance(dtype))
     return index, tree.parent, tree.length, tree.rooted, bool(dm.info.get("saturated"))

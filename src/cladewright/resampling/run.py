@@ -31,6 +31,7 @@ if TYPE_CHECKING:
     from dask.distributed import Client
 
     from ..alignment import Alignment
+    from ..build.criteria import LengthCriterion
     from ..matrix import DistanceMatrix
     from ..tree import Tree
 
@@ -57,7 +58,8 @@ def bootstrap(alignment: Alignment, replicates: int = 100, *, model: str = "k2p"
               negative: str = "zero", seed: int | None = None, workers: int | None = None, support: str = "fbp",
               save_replicates: str | os.PathLike[str] | None = None, resume: bool = False,
               scheduler: str | Client | None = None, progress: bool = True,
-              precision: str = "double") -> BootstrapResult:
+              precision: str = "double", refine: str | None = None,
+              criterion: LengthCriterion | None = None) -> BootstrapResult:
     """Bootstrap support for the tree of an alignment.
 
     Parameters
@@ -66,7 +68,8 @@ def bootstrap(alignment: Alignment, replicates: int = 100, *, model: str = "k2p"
     replicates : int
         Number of bootstrap replicates (>= 1).
     model, gamma, gaps, freqs, saturated : see :func:`cladewright.distance_matrix`
-    method, negative : see :func:`cladewright.build_tree`
+    method, negative, refine, criterion : see :func:`cladewright.build_tree`; every replicate
+        uses the same start and refinement as the main tree
     seed : int, optional
         The run's seed, 0 <= seed < 2**128; drawn (and returned) when not given.
     workers : int, optional
@@ -133,7 +136,7 @@ def bootstrap(alignment: Alignment, replicates: int = 100, *, model: str = "k2p"
     # Identical sequences enter once; they stay identical in every replicate.
     distinct, group = split_identical(alignment, model)
     job = ReplicateJob.of(alignment, distinct, group, seed,
-                          (model, gamma, gaps, freqs, saturated, method, negative, precision))
+                          (model, gamma, gaps, freqs, saturated, method, negative, precision, refine, criterion))
     done: list[Tree] = []
     rfile: ReplicateFile | None = None
     path: str | None = None
@@ -149,7 +152,7 @@ def bootstrap(alignment: Alignment, replicates: int = 100, *, model: str = "k2p"
         dtype = PRECISIONS[precision]
         tree, info, dm = distinct_tree(distinct, model, method, gamma=gamma, gaps=gaps, freqs=freqs,
                                        saturated=saturated, negative=negative, dtype=dtype, progress=progress,
-                                       n_sequences=alignment.n_taxa)
+                                       n_sequences=alignment.n_taxa, refine=refine, criterion=criterion)
         tree = finish_tree(tree, alignment.names, group, zero_tolerance(dtype))
         info.update(identical_info(group))
         if path is not None and rfile is None:
