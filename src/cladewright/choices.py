@@ -44,9 +44,10 @@ INSERTION_METHODS: Final[tuple[InsertionMethod, ...]] = get_args(InsertionMethod
 Method = Union[LinkageMethod, JoiningMethod, InsertionMethod]
 METHODS: Final[tuple[Method, ...]] = LINKAGE_METHODS + JOINING_METHODS + INSERTION_METHODS
 
-#: Topology searches after the start (build_tree's ``refine``): none, or nearest-neighbour
-#: interchanges to a local optimum (Desper & Gascuel 2002). ``refine=None`` means "none".
-Refinement = Literal["none", "nni"]
+#: Topology searches after the start (build_tree's ``refine``): none, nearest-neighbour
+#: interchanges (Desper & Gascuel 2002) or subtree pruning and regrafting under BME (Hordijk &
+#: Gascuel 2005), each to a local optimum. ``refine=None`` means "none".
+Refinement = Literal["none", "nni", "spr"]
 REFINEMENTS: Final[tuple[Refinement, ...]] = get_args(Refinement)
 
 #: Criteria for the branch lengths of a given tree (build/criteria.py); tree lengths take the first two.

@@ -250,7 +250,8 @@ def report_html(*, alignment: Alignment | None = None, dm: DistanceMatrix, tree:
         crit = f"{str(info['criterion']).upper()} tree length"
         if info.get("refine") not in (None, "none") and info.get("length_before") is not None:
             fit.append((crit, f"{info['length_before']:.6g} before, {info['length_after']:.6g} after "
-                              f"({info.get('moves', 0)} interchanges)"))
+                              f"({info.get('moves', 0)} "
+                              f"{'regrafts' if info.get('refine') == 'spr' else 'interchanges'})"))
         else:
             fit.append((crit, f"{info['length_after']:.6g}"))
     x, y, kids, leaf_rows, _ = tree_layout(tree, True)

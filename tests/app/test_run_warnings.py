@@ -158,6 +158,7 @@ def _library_messages(tmp_path):
         _message(lambda: build_tree(distance_matrix(near, "p"), "upgma", refine="nni")),
         _message(lambda: build_tree(distance_matrix(near, "p"), "nj", criterion="bme")),
         _message(lambda: build_tree(distance_matrix(near, "p"), "nj", criterion="ols")),
+        _message(lambda: build_tree(distance_matrix(near, "p"), "nj", refine="spr", criterion="ols")),  # SPR is BME
     ]
 
 

@@ -225,7 +225,7 @@ def test_bad_refinements_are_refused():
     # common practice: an unknown or inapplicable choice is an error, not ignored
     _, dm = _tree_metric(70, 6)
     with pytest.raises(cw.InputError, match="unknown refinement"):
-        cw.build_tree(dm, "nj", refine="spr")
+        cw.build_tree(dm, "nj", refine="tbr")
     with pytest.raises(cw.InputError, match="rooted tree"):
         cw.build_tree(dm, "upgma", refine="nni")
     with pytest.raises(cw.InputError, match="refined and bme trees only"):

@@ -1,13 +1,14 @@
 """Trees from distance matrices: linkage (UPGMA, WPGMA, single, complete),
 neighbour joining, BIONJ and greedy balanced minimum evolution, refined by
-nearest-neighbour interchanges.
+nearest-neighbour interchanges or subtree pruning and regrafting.
 
 References
 ----------
 Lance & Williams (1967) Computer Journal 9:373–380; Sokal & Michener (1958);
 Saitou & Nei (1987) Mol. Biol. Evol. 4:406–425; Studier & Keppler (1988)
 Mol. Biol. Evol. 5:729–731; Gascuel (1997) Mol. Biol. Evol. 14:685–695;
-Desper & Gascuel (2002) J. Comput. Biol. 9:687–705.
+Desper & Gascuel (2002) J. Comput. Biol. 9:687–705; Hordijk & Gascuel (2005)
+Bioinformatics 21:4338–4347.
 """
 
 from __future__ import annotations
@@ -64,9 +65,10 @@ def build_tree_with_info(dm: DistanceMatrix, method: str = "nj", negative: str =
         How many sequences each taxon of ``dm`` stands for (a group of
         identical sequences entered once); UPGMA weights its averages by
         them. The other methods do not use them.
-    refine : {None, "none", "nni"}
-        Nearest-neighbour interchanges from the nj, bionj or bme tree to a
-        local optimum of ``criterion`` (:func:`cladewright.build.search.refine_tree`).
+    refine : {None, "none", "nni", "spr"}
+        Nearest-neighbour interchanges, or subtree pruning and regrafting
+        (BME only), from the nj, bionj or bme tree to a local optimum of
+        ``criterion`` (:func:`cladewright.build.search.refine_tree`).
     criterion : {"bme", "ols"}, optional
         The criterion of the search and of the branch lengths of refined and
         bme trees (default "bme": balanced NNI and BME lengths; "ols":
@@ -78,11 +80,11 @@ def build_tree_with_info(dm: DistanceMatrix, method: str = "nj", negative: str =
     info : dict
         ``negative_branches`` (int, how many computed lengths were < 0, before
         any zeroing), ``fit_name`` and ``fit_value`` (see :func:`fit_statistic`),
-        ``method``, ``refine`` ("none" or "nni"), ``criterion`` (None for nj
+        ``method``, ``refine`` ("none", "nni" or "spr"), ``criterion`` (None for nj
         and bionj trees left as built and linkage trees), ``length_before``
         and ``length_after`` (the criterion's tree length of the start and of
         the refined tree, before any zeroing; None without a criterion),
-        ``moves`` (interchanges made).
+        ``moves`` (interchanges or regrafts made).
 
     References
     ----------
@@ -170,8 +172,9 @@ def build_tree(dm: DistanceMatrix, method: str = "nj", negative: str = "zero", *
     method : str
         upgma, wpgma, single, complete, nj (default), bionj or bme.
     negative : {"zero", "keep"}
-    refine : {None, "none", "nni"}
-        Nearest-neighbour interchanges after an nj, bionj or bme start.
+    refine : {None, "none", "nni", "spr"}
+        Nearest-neighbour interchanges, or subtree pruning and regrafting
+        under BME, after an nj, bionj or bme start.
     criterion : {"bme", "ols"}, optional
         Criterion of the interchanges and lengths (default bme; see
         :func:`build_tree_with_info`).
@@ -189,7 +192,8 @@ def build_tree(dm: DistanceMatrix, method: str = "nj", negative: str = "zero", *
 
     References
     ----------
-    Desper & Gascuel (2002) J. Comput. Biol. 9:687–705 (bme, refine="nni").
+    Desper & Gascuel (2002) J. Comput. Biol. 9:687–705 (bme, refine="nni");
+    Hordijk & Gascuel (2005) Bioinformatics 21:4338–4347 (refine="spr").
     """
     return build_tree_with_info(dm, method, negative, source=source, fit=False, sizes=sizes, refine=refine,
                                 criterion=criterion)[0]

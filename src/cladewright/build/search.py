@@ -1,5 +1,6 @@
 """Topology search by nearest-neighbour interchanges (NNI) under balanced
-minimum evolution (balanced NNI) or ordinary least squares (FastNNI).
+minimum evolution (balanced NNI) or ordinary least squares (FastNNI), and by
+subtree pruning and regrafting (SPR) under balanced minimum evolution.
 
 Each interchange swaps two of the four subtrees around an internal branch.
 The search takes, again and again, the interchange that lowers the
@@ -13,7 +14,10 @@ whole during the search. BME tree length (Pauplin 2000):
 
 the OLS length is the sum of the least-squares branch lengths (Rzhetsky &
 Nei 1993). On a tree metric the BME tree is the true tree (Desper & Gascuel
-2004), and NNI from any start reaches it (Desper & Gascuel 2002).
+2004), and NNI from any start reaches it (Desper & Gascuel 2002). SPR moves
+a clade to any other branch, its fall in BME length summed from the NNI falls
+along the path between the two branches (Hordijk & Gascuel 2005), every clade
+tried once per O(n^2) round (:mod:`cladewright._kernels.spr`).
 
 References
 ----------
@@ -23,6 +27,9 @@ algorithms based on the minimum-evolution principle. J. Comput. Biol.
 Desper, R. & Gascuel, O. (2004) Theoretical foundation of the balanced
 minimum evolution method of phylogenetic inference and its relationship to
 weighted least-squares tree fitting. Mol. Biol. Evol. 21:587–598.
+Hordijk, W. & Gascuel, O. (2005) Improving the efficiency of SPR moves in
+phylogenetic tree search methods based on maximum likelihood. Bioinformatics
+21:4338–4347.
 Pauplin, Y. (2000) J. Mol. Evol. 51:41–47.
 Rzhetsky, A. & Nei, M. (1993) Mol. Biol. Evol. 10:1073–1095.
 """
@@ -37,6 +44,7 @@ from numpy.typing import NDArray
 from ..choices import REFINEMENTS
 from ..errors import InputError
 from .._kernels.nni import hang_children, nni_search
+from .._kernels.spr import spr_search
 from ..matrix import DistanceMatrix
 from ..tree import Tree
 from .criteria import LENGTH_CRITERIA, LengthCriterion, fit_lengths_with_info
@@ -46,7 +54,7 @@ __all__ = ["refine_tree", "refine_tree_with_info", "refinement_name", "tree_from
 
 
 def refinement_name(refine: object, *, source: str | None = None) -> str:
-    """The refinement ``refine`` stands for: "none" (also for None) or "nni".
+    """The refinement ``refine`` stands for: "none" (also for None), "nni" or "spr".
 
     Raises
     ------
@@ -84,15 +92,16 @@ def tree_from_hung(parent: NDArray[np.int64], top: int, names: tuple[str, ...]) 
     return Tree(out, np.full(out.shape[0], np.nan), names)
 
 
-def _hung_arrays(tree: Tree, dm: DistanceMatrix, source: str | None
+def _hung_arrays(tree: Tree, dm: DistanceMatrix, search: str, source: str | None
                  ) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
     """The tree as a binary tree hung from its first leaf, nodes renumbered
     (leaves 0..n−1 kept, internal nodes n..2n−3), and each leaf's matrix row."""
     g = hang_from_leaf(tree, dm, source=source)
     v = g.first_polytomy()
     if v >= 0:
-        raise InputError(f"the tree is not binary: a node has {int(g.n_children[v]) + 1} branches; NNI needs a "
-                         "binary tree: resolve polytomies first (resolve_polytomies)", source=source)
+        raise InputError(f"the tree is not binary: a node has {int(g.n_children[v]) + 1} branches; "
+                         f"{search.upper()} needs a binary tree: resolve polytomies first (resolve_polytomies)",
+                         source=source)
     n = g.n_leaves
     kept = g.pre
     new = np.full(tree.n_nodes, -1, np.int64)
@@ -121,26 +130,33 @@ def refine_tree_with_info(tree: Tree, dm: DistanceMatrix, refine: str | None = "
     info : dict
         ``refine``, ``criterion``; ``length_before`` and ``length_after``
         (the criterion's tree length of the start and of the result);
-        ``moves`` (interchanges made) and ``rounds`` (tables built from the
+        ``moves`` (interchanges or regrafts made) and ``rounds`` (tables built from the
         matrix); ``negative_branches`` (fitted lengths < 0).
 
     References
     ----------
-    Desper & Gascuel (2002) J. Comput. Biol. 9:687–705.
+    Desper & Gascuel (2002) J. Comput. Biol. 9:687–705; Hordijk & Gascuel
+    (2005) Bioinformatics 21:4338–4347.
     """
     r = refinement_name(refine, source=source)
     c = criterion.lower() if isinstance(criterion, str) else None
     if c not in LENGTH_CRITERIA:
         raise InputError(f"unknown criterion criterion={criterion!r}; choose one of {', '.join(LENGTH_CRITERIA)}",
                          source=source)
+    if r == "spr" and c != "bme":
+        raise InputError(f'refine="spr" searches under balanced minimum evolution only, not criterion="{c}"; '
+                         'use criterion="bme", or refine="nni" with criterion="ols"', source=source)
     start, before = fit_lengths_with_info(tree, dm, c, source=source)
     moves = rounds = 0
     result, after = start, before
-    if r == "nni" and tree.n_leaves >= 4:
-        parent, rows = _hung_arrays(tree, dm, source)
+    if r != "none" and tree.n_leaves >= 4:
+        parent, rows = _hung_arrays(tree, dm, r, source)
         n = tree.n_leaves
         kid1, kid2 = hang_children(parent, 0, n)
-        moves, rounds = nni_search(parent, kid1, kid2, 0, rows, dm.values, n, c == "bme")
+        if r == "spr":
+            moves, rounds = spr_search(parent, kid1, kid2, 0, rows, dm.values, n)
+        else:
+            moves, rounds = nni_search(parent, kid1, kid2, 0, rows, dm.values, n, c == "bme")
         if moves:
             topology = tree_from_hung(parent, 0, tree.leaf_names)
             result, after = fit_lengths_with_info(topology, dm, c, source=source)
@@ -153,7 +169,7 @@ def refine_tree_with_info(tree: Tree, dm: DistanceMatrix, refine: str | None = "
 def refine_tree(tree: Tree, dm: DistanceMatrix, refine: str | None = "nni", criterion: LengthCriterion = "bme", *,
                 source: str | None = None) -> Tree:
     """A tree whose topology is a local optimum of a minimum-evolution criterion,
-    found by nearest-neighbour interchanges from ``tree``.
+    found by nearest-neighbour interchanges or subtree pruning and regrafting from ``tree``.
 
     Parameters
     ----------
@@ -162,14 +178,17 @@ def refine_tree(tree: Tree, dm: DistanceMatrix, refine: str | None = "nni", crit
         ``dm`` by name; its lengths are not used.
     dm : cladewright.matrix.DistanceMatrix
         Exactly the tree's taxa, in any order.
-    refine : {"nni", "none"} or None
-        The search: nearest-neighbour interchanges, or none (the start with
-        fitted lengths).
+    refine : {"nni", "spr", "none"} or None
+        The search: nearest-neighbour interchanges; subtree pruning and
+        regrafting under BME (each clade not holding the first leaf moved to
+        its best branch, the fall of every regraft summed from NNI falls along
+        the path, :mod:`cladewright._kernels.spr`; its moves include every
+        interchange); or none (the start with fitted lengths).
     criterion : {"bme", "ols"}
         Balanced minimum evolution (balanced NNI): Pauplin's length
         L = sum_{i<j} 2^(1 − p_ij) d_ij; or ordinary least squares (FastNNI):
-        the sum of the OLS branch lengths. An interchange is taken only when
-        it lowers the length beyond rounding.
+        the sum of the OLS branch lengths. A move is taken only when it
+        lowers the length beyond rounding. ``refine="spr"`` takes "bme" only.
     source : str, optional
         File name to put in error messages.
 
@@ -184,14 +203,15 @@ def refine_tree(tree: Tree, dm: DistanceMatrix, refine: str | None = "nni", crit
     ------
     InputError
         When the taxa differ, the tree has a polytomy, a distance is not
-        finite, or ``refine``/``criterion`` is unknown.
+        finite, ``refine``/``criterion`` is unknown, or ``refine="spr"``
+        comes with ``criterion="ols"``.
 
     References
     ----------
     Desper & Gascuel (2002) J. Comput. Biol. 9:687–705 (balanced NNI,
     FastNNI); Pauplin (2000) J. Mol. Evol. 51:41–47; Rzhetsky & Nei (1993)
     Mol. Biol. Evol. 10:1073–1095; Desper & Gascuel (2004) Mol. Biol. Evol.
-    21:587–598.
+    21:587–598; Hordijk & Gascuel (2005) Bioinformatics 21:4338–4347 (SPR).
 
     Example
     -------

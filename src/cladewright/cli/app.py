@@ -46,6 +46,7 @@ PARAMETER_OPTIONS: tuple[tuple[str | re.Pattern[str], str], ...] = (
     ("scheduler needs", "--scheduler needs"),
     ('method="nj"', "--method nj"),
     ('refine="nni"', "--refine nni"),
+    ('refine="spr"', "--refine spr"),
     ('criterion="bme"', "--criterion bme"),
     ('criterion="ols"', "--criterion ols"),
     ("drop criterion", "drop --criterion"),

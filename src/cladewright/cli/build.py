@@ -99,7 +99,8 @@ def _check_outputs(input_path: str, output: str, save_replicates: str | None, re
               default="nj", show_default=True,
               help="Tree-building method (bme: greedy balanced minimum evolution insertion).")
 @click.option("--refine", type=click.Choice(REFINEMENTS), default="none", show_default=True,
-              help="Topology search after an nj, bionj or bme start: nearest-neighbour interchanges (nni).")
+              help="Topology search after an nj, bionj or bme start: nearest-neighbour interchanges (nni), "
+                   "or subtree pruning and regrafting under balanced minimum evolution (spr).")
 @click.option("--criterion", type=click.Choice(("bme", "ols")), default=None,
               help="Criterion of --refine and of the lengths of refined and bme trees: balanced minimum "
                    "evolution (default) or ordinary least squares.")

@@ -74,7 +74,8 @@ def tree_summary(aln: Alignment | None, dm: DistanceMatrix, info: Mapping[str, A
         crit = str(info["criterion"]).upper()
         if info.get("refine") not in (None, "none"):
             lines.append(f"length    {crit} tree length {info['length_before']:.6g} before, "
-                         f"{info['length_after']:.6g} after ({info['moves']} interchanges)")
+                         f"{info['length_after']:.6g} after ({info['moves']} "
+                         f"{'regrafts' if info.get('refine') == 'spr' else 'interchanges'})")
         else:
             lines.append(f"length    {crit} tree length {info['length_after']:.6g}")
     if info.get("fit_name") and info.get("fit_value") is not None:
