@@ -22,11 +22,13 @@ from cladewright import choices
 from cladewright.alignment import Alignment, encode
 from cladewright.build import LINKAGE_METHODS as LANCE_WILLIAMS_ROWS
 from cladewright.build import METHODS, build_tree
+from cladewright.build.criteria import fit_lengths
 from cladewright.cli import main
 from cladewright.cli.app import PARAMETER_OPTIONS, as_options
 from cladewright.distances import distance_matrix
 from cladewright.errors import CladewrightWarning, InputError, SaturationError
 from cladewright.memory import WORKING_MATRICES, check_fits
+from cladewright.tree import Tree
 
 from simulate import mutate, random_sequence
 
@@ -159,6 +161,9 @@ def _library_messages(tmp_path):
         _message(lambda: build_tree(distance_matrix(near, "p"), "nj", criterion="bme")),
         _message(lambda: build_tree(distance_matrix(near, "p"), "nj", criterion="ols")),
         _message(lambda: build_tree(distance_matrix(near, "p"), "nj", refine="spr", criterion="ols")),  # SPR is BME
+        # a polytomy (a star of four) given to the BME fit
+        _message(lambda: fit_lengths(Tree([4, 4, 4, 4, -1], [1.0] * 4 + [np.nan], list("abcd")),
+                                     distance_matrix(_dna(["ACGTAC", "ACGTAA", "ACTTAC", "TCGTAC"], list("abcd")), "p"))),
     ]
 
 

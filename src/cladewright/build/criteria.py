@@ -145,7 +145,7 @@ def _require_binary(g: LeafRootedTree, criterion: str, source: str | None) -> No
         leaf = int(tree.children(leaf)[0])
     raise InputError(f"the tree is not binary: a node has {int(g.n_children[v]) + 1} branches (on the path to "
                      f"taxon {tree.leaf_names[leaf]!r}); {criterion} needs a binary tree: resolve polytomies "
-                     "first (resolve_polytomies gives zero-length branches), or use criterion='wls'",
+                     'first (resolve_polytomies(tree) gives zero-length branches), or use criterion="wls"',
                      source=source)
 
 

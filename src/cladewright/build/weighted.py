@@ -240,7 +240,7 @@ def weighted_least_squares(g: LeafRootedTree, start: NDArray[np.float64] | None 
         if it >= limit or stalled:
             raise CladewrightError(
                 f"weighted least squares did not converge in {it} iterations (relative residual "
-                f"{rnorm / bnorm:.3g}); the matrix may be far from tree-like: use criterion='ols'")
+                f'{rnorm / bnorm:.3g}); the matrix may be far from tree-like: use criterion="ols"')
         z = precondition(r)
         p = z.copy()
         rz = float(r @ z)

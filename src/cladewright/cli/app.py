@@ -49,6 +49,8 @@ PARAMETER_OPTIONS: tuple[tuple[str | re.Pattern[str], str], ...] = (
     ('refine="spr"', "--refine spr"),
     ('criterion="bme"', "--criterion bme"),
     ('criterion="ols"', "--criterion ols"),
+    ('criterion="wls"', "--criterion wls"),
+    ("(resolve_polytomies(tree) gives zero-length branches)", "(write the tree with tree --binary)"),
     ("drop criterion", "drop --criterion"),
     ("set gamma=None", "drop --gamma"),
     ("resume=True", "--resume"),
