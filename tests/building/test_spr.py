@@ -26,7 +26,7 @@ from dendropy.calculate import treecompare
 import cladewright as cw
 from cladewright._kernels.averages import build_table
 from cladewright._kernels.nni import hang_children
-from cladewright._kernels.spr import best_regraft, regraft
+from cladewright._kernels.spr import best_regraft, local_entries, regraft
 from cladewright.cli import main
 from simulate import additive_matrix, random_join_tree
 
@@ -149,12 +149,16 @@ def test_predicted_fall_of_each_regraft_is_the_pauplin_difference():
         M = np.zeros((m, m))
         pre, pos, count, size = (np.empty(m, np.int64) for _ in range(4))
         pre[0] = 0
-        build_table(M, parent, kid1, kid2, np.arange(n), d, n, pre, pos, count, size, True)
+        stamp = np.zeros(m, np.int64)
+        clock = np.zeros(1, np.int64)
+        k = build_table(M, stamp, clock, parent, kid1, kid2, np.arange(n), d, n, pre, pos, count, size, True)
+        near = np.zeros((m, 2))
+        local_entries(M, stamp, parent, kid1, kid2, pre, k, n, near)
         work = [np.empty(m, np.int64)] + [np.empty(m) for _ in range(4)]
         for v in range(1, m):
             if parent[v] == 0:
                 continue
-            gain, t = best_regraft(M, v, parent, kid1, kid2, 0, n, *work)
+            gain, t = best_regraft(M, stamp, near, 1e-10, v, parent, kid1, kid2, 0, n, *work)
             if t < 0:
                 continue
             p2, k1, k2 = parent.copy(), kid1.copy(), kid2.copy()

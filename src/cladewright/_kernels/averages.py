@@ -23,6 +23,14 @@ leaf put on a branch) only the subtrees holding that branch change: the
 clades X_w of the nodes w on its path to ``top`` (O(n) entries each) and the
 sides U_w (O(depth) entries per node), so an update is O(n diam).
 
+The build writes every entry between unrelated subtrees into both its rows;
+afterwards an update writes the rows of the changed clades only, not their
+columns (a column is a scattered write per entry): each row carries the time
+it was last written (``stamp``, 0 for all at the build), and an entry between
+unrelated subtrees a and b is read from the row written last (:func:`get`). That row holds the current value: a clade that changes
+has its row rewritten before anything reads it, and a pair becomes unrelated
+only when one of its clades changes.
+
 References
 ----------
 Desper, R. & Gascuel, O. (2002) Fast and accurate phylogeny reconstruction
@@ -90,9 +98,19 @@ def sibling(w, parent, kid1, kid2):
     return kid2[p] if kid1[p] == w else kid1[p]
 
 
+@nb.njit(cache=True, nogil=True, inline="always")
+def get(M, stamp, a, b):
+    """Δ(X_a, X_b) for unrelated a, b: from the row written last."""
+    return M[a, b] if stamp[a] >= stamp[b] else M[b, a]
+
+
 @nb.njit(cache=True, nogil=True)
-def clade_row(M, w, kid1, kid2, pre, k, pos, count, size, balanced):
-    """Δ(X_w, Z) from w's children, for every Z unrelated to w (``top`` included)."""
+def clade_row(M, stamp, clock, w, kid1, kid2, pre, k, pos, count, size, balanced, mirror=False):
+    """Δ(X_w, Z) from w's children, for every Z unrelated to w (``top``
+    included), into w's row, which takes the next time of ``clock`` (one
+    entry); with ``mirror``, into w's column too, the times left as they are
+    (for searches that then read whole rows, where a column read per entry
+    would cost more than the writes)."""
     a = kid1[w]
     b = kid2[w]
     if balanced:
@@ -101,20 +119,32 @@ def clade_row(M, w, kid1, kid2, pre, k, pos, count, size, balanced):
         fa = size[a] / (size[a] + size[b])
     fb = 1.0 - fa
     top = pre[0]
-    x = fa * M[a, top] + fb * M[b, top]
+    x = fa * get(M, stamp, a, top) + fb * get(M, stamp, b, top)
     M[w, top] = x
-    M[top, w] = x
-    for t in range(1, k):
+    if mirror:
+        M[top, w] = x
+    lo = pos[w]
+    for t in range(1, lo):
         z = pre[t]
-        if below(w, z, pos, count) or below(z, w, pos, count):
+        if t + count[z] > lo:  # an ancestor of w
             continue
-        x = fa * M[a, z] + fb * M[b, z]
+        x = fa * get(M, stamp, a, z) + fb * get(M, stamp, b, z)
         M[w, z] = x
-        M[z, w] = x
+        if mirror:
+            M[z, w] = x
+    for t in range(lo + count[w], k):
+        z = pre[t]
+        x = fa * get(M, stamp, a, z) + fb * get(M, stamp, b, z)
+        M[w, z] = x
+        if mirror:
+            M[z, w] = x
+    if not mirror:
+        clock[0] += 1
+        stamp[w] = clock[0]
 
 
 @nb.njit(cache=True, nogil=True)
-def side_rows(M, parent, kid1, kid2, pre, k, pos, count, size, n_total, balanced):
+def side_rows(M, stamp, parent, kid1, kid2, pre, k, pos, count, size, n_total, balanced):
     """Δ(U_w, X_z) for every node w below ``top`` and every z strictly below w,
     from the clade entries (one top-down pass, O(n diam))."""
     top = pre[0]
@@ -126,7 +156,7 @@ def side_rows(M, parent, kid1, kid2, pre, k, pos, count, size, n_total, balanced
         if p == top:
             for q in range(lo, hi):
                 z = pre[q]
-                M[w, z] = M[top, z]
+                M[w, z] = get(M, stamp, top, z)
             continue
         s = sibling(w, parent, kid1, kid2)
         if balanced:
@@ -136,17 +166,21 @@ def side_rows(M, parent, kid1, kid2, pre, k, pos, count, size, n_total, balanced
         fp = 1.0 - fs
         for q in range(lo, hi):
             z = pre[q]
-            M[w, z] = fs * M[s, z] + fp * M[p, z]
+            M[w, z] = fs * get(M, stamp, s, z) + fp * M[p, z]
 
 
 @nb.njit(cache=True, nogil=True)
-def build_table(M, parent, kid1, kid2, rows, d, n_leaves, pre, pos, count, size, balanced):
+def build_table(M, stamp, clock, parent, kid1, kid2, rows, d, n_leaves, pre, pos, count, size, balanced, sides=True):
     """Fill ``M`` for the tree hanging from ``pre[0]`` (O(n^2)).
 
     Parameters
     ----------
-    M : float64 ndarray (m, m)
+    M : float ndarray (m, m)
         Overwritten where the tree has entries.
+    stamp, clock : int64 ndarray (m,), (1,)
+        The time each row was written and the last time given, set to 0:
+        the build writes every entry between unrelated subtrees into both
+        its rows (:func:`get`).
     parent, kid1, kid2 : int64 ndarray (m,)
         The tree hung from a leaf (``kid1[top]`` its one child).
     rows : int64 ndarray
@@ -159,6 +193,10 @@ def build_table(M, parent, kid1, kid2, rows, d, n_leaves, pre, pos, count, size,
         Work arrays, filled by :func:`preorder`.
     balanced : bool
         Balanced averages (BME) or plain ones (OLS).
+    sides : bool
+        Fill the side entries Δ(U_w, X_z) too; without them only the entries
+        between unrelated subtrees are made (the NNI search makes the side
+        entries it needs from them, :mod:`cladewright._kernels.nni`).
 
     Returns
     -------
@@ -166,30 +204,29 @@ def build_table(M, parent, kid1, kid2, rows, d, n_leaves, pre, pos, count, size,
         The number of nodes in the tree.
     """
     k = preorder(pre[0], kid1, kid2, n_leaves, pre, pos, count, size)
-    for t in range(k):
-        i = pre[t]
-        if i >= n_leaves:
-            continue
+    stamp[:] = 0
+    clock[0] = 0
+    for i in range(n_leaves):
         ri = rows[i]
-        for q in range(k):
-            j = pre[q]
-            if j < n_leaves:
-                M[i, j] = d[ri, rows[j]]
+        for j in range(n_leaves):
+            M[i, j] = d[ri, rows[j]]
     for t in range(k - 1, 0, -1):
         w = pre[t]
         if w >= n_leaves:
             # clades below w in the postorder are done; those after it are
             # not yet, and reach w when their own row is made
             clade_row_done(M, w, kid1, kid2, pre, k, t, pos, count, size, n_leaves, balanced)
-    n_total = size[kid1[pre[0]]] + 1
-    side_rows(M, parent, kid1, kid2, pre, k, pos, count, size, n_total, balanced)
+    if sides:
+        n_total = size[kid1[pre[0]]] + 1
+        side_rows(M, stamp, parent, kid1, kid2, pre, k, pos, count, size, n_total, balanced)
     return k
 
 
 @nb.njit(cache=True, nogil=True)
 def clade_row_done(M, w, kid1, kid2, pre, k, t_w, pos, count, size, n_leaves, balanced):
     """As :func:`clade_row`, for the nodes Z already made in a postorder
-    (every leaf, ``top``, and the internal nodes after w in preorder)."""
+    (every leaf, ``top``, and the internal nodes after w in preorder), into
+    w's row and column; the others reach w when their own row is made."""
     a = kid1[w]
     b = kid2[w]
     if balanced:
@@ -197,22 +234,24 @@ def clade_row_done(M, w, kid1, kid2, pre, k, t_w, pos, count, size, n_leaves, ba
     else:
         fa = size[a] / (size[a] + size[b])
     fb = 1.0 - fa
-    for q in range(k):
+    for q in range(t_w):  # before w in preorder: its ancestors (internal) and unrelated nodes
         z = pre[q]
-        if q > 0 and (z >= n_leaves and q < t_w):
-            continue
-        if q > 0 and (below(w, z, pos, count) or below(z, w, pos, count)):
-            continue
+        if z < n_leaves or q == 0:
+            x = fa * M[a, z] + fb * M[b, z]
+            M[w, z] = x
+            M[z, w] = x
+    for q in range(t_w + count[w], k):  # after w's clade: all unrelated
+        z = pre[q]
         x = fa * M[a, z] + fb * M[b, z]
         M[w, z] = x
         M[z, w] = x
 
 
 @nb.njit(cache=True, nogil=True)
-def update_path(M, start, parent, kid1, kid2, n_leaves, pre, pos, count, size, balanced):
+def update_path(M, stamp, clock, start, parent, kid1, kid2, n_leaves, pre, pos, count, size, balanced, sides=True):
     """Bring ``M`` up to date after the tree changed at node ``start``: the
-    clade rows of ``start`` and of every node above it, then every side row.
-    O(n diam).
+    clade rows of ``start`` and of every node above it, then (with ``sides``)
+    every side row. O(n diam).
 
     Returns
     -------
@@ -223,8 +262,9 @@ def update_path(M, start, parent, kid1, kid2, n_leaves, pre, pos, count, size, b
     k = preorder(top, kid1, kid2, n_leaves, pre, pos, count, size)
     w = start
     while w != top:
-        clade_row(M, w, kid1, kid2, pre, k, pos, count, size, balanced)
+        clade_row(M, stamp, clock, w, kid1, kid2, pre, k, pos, count, size, balanced)
         w = parent[w]
-    n_total = size[kid1[top]] + 1
-    side_rows(M, parent, kid1, kid2, pre, k, pos, count, size, n_total, balanced)
+    if sides:
+        n_total = size[kid1[top]] + 1
+        side_rows(M, stamp, parent, kid1, kid2, pre, k, pos, count, size, n_total, balanced)
     return k

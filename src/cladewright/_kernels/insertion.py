@@ -24,16 +24,18 @@ algorithms based on the minimum-evolution principle. J. Comput. Biol.
 import numba as nb
 import numpy as np
 
-from .averages import build_table, sibling, update_path
+from .averages import build_table, get, sibling, update_path
 
 
 @nb.njit(cache=True, nogil=True)
-def bme_insertion(d):
+def bme_insertion(d, M):
     """A binary tree on the rows of ``d`` by greedy BME insertion.
 
     Parameters
     ----------
     d : float ndarray (n, n), n >= 3
+    M : float ndarray (2n − 2, 2n − 2)
+        Work space for the table of subtree averages (float64 or float32).
 
     Returns
     -------
@@ -55,13 +57,14 @@ def bme_insertion(d):
     kid1[top] = n
     kid1[n] = 1
     kid2[n] = 2
-    M = np.zeros((m, m), np.float64)
     pre = np.empty(m, np.int64)
     pos = np.empty(m, np.int64)
     count = np.empty(m, np.int64)
     size = np.empty(m, np.int64)
+    stamp = np.zeros(m, np.int64)
+    clock = np.zeros(1, np.int64)
     pre[0] = top
-    k = build_table(M, parent, kid1, kid2, rows, d, n, pre, pos, count, size, True)
+    k = build_table(M, stamp, clock, parent, kid1, kid2, rows, d, n, pre, pos, count, size, True)
     down = np.zeros(m, np.float64)
     up = np.zeros(m, np.float64)
     cost = np.zeros(m, np.float64)
@@ -84,7 +87,7 @@ def bme_insertion(d):
             p = parent[w]
             s = sibling(w, parent, kid1, kid2)
             up[w] = 0.5 * (down[s] + up[p])
-            cost[w] = cost[p] + 0.25 * (down[w] + M[p, s] - M[w, s] - up[p])
+            cost[w] = cost[p] + 0.25 * (down[w] + M[p, s] - get(M, stamp, w, s) - up[p])
             if cost[w] < best:
                 best = cost[w]
                 best_w = w
@@ -106,6 +109,7 @@ def bme_insertion(d):
         for t in range(k):
             z = pre[t]
             M[leaf, z] = down[z]
-            M[z, leaf] = down[z]
-        k = update_path(M, x, parent, kid1, kid2, n, pre, pos, count, size, True)
+        clock[0] += 1
+        stamp[leaf] = clock[0]
+        k = update_path(M, stamp, clock, x, parent, kid1, kid2, n, pre, pos, count, size, True)
     return parent

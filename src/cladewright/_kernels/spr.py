@@ -27,14 +27,19 @@ the tree before the move:
 
   and h halves at each step.
 
-Each clade is pruned in turn (node order) and its best regraft over the whole
-tree found in O(n); a regraft that lowers the length beyond rounding is made
-at once and the table updated along the two changed paths (O(n diam)). A
-round (every clade pruned once) costs O(n^2) plus the updates; the table is
-then rebuilt from the matrix and a round with no move ends the search. Every
-move strictly lowers the length, so the search ends. The moves include every
-nearest-neighbour interchange (a regraft one branch away); clades holding
-``top`` are not pruned.
+The search first makes interchanges to the NNI optimum
+(:mod:`cladewright._kernels.nni`): every interchange is a regraft one branch
+away, and they are found at O(diam) each rather than O(n). Then each clade is
+pruned in turn (node order) and its best regraft over the whole tree found in
+O(n); a regraft that lowers the length beyond rounding is made at once and
+the table updated along the two changed paths (O(n diam)). A round (every
+clade pruned once) costs O(n^2) plus the updates, and a round with no move
+ends the search. Every move strictly lowers the length, so the search ends;
+clades holding ``top`` are not pruned. The entries every regraft reads
+(between a node's two clades, and between a clade and the rest beyond its
+parent) are kept side by side (:func:`local_entries`) and the table's rows
+follow the preorder of the start, so a regraft search reads memory mostly in
+order.
 
 References
 ----------
@@ -51,19 +56,19 @@ matrix. J. Mol. Evol. 51:41–47.
 import numba as nb
 import numpy as np
 
-from .averages import build_table, clade_row, preorder, side_rows, sibling
-
-#: A fall in tree length counts only above this fraction of the averages it is made of.
-RELATIVE_TOLERANCE = 1e-10
+from .averages import build_table, clade_row, get, preorder, side_rows, sibling
+from .nni import nni_search
 
 
 @nb.njit(cache=True, nogil=True)
-def _descend(M, v, o, w0, xp0, h0, g0, sc0, kid1, kid2, n_leaves, sw, sxp, sh, sg, ssc, best, best_t):
+def _descend(M, stamp, near, tol, v, o, o_side, w0, xp0, h0, g0, sc0, kid1, kid2, n_leaves, sw, sxp, sh, sg, ssc,
+             best, best_t):
     """Regrafts of X_v on the branches below w0 (X now on the branch above w0).
 
     ``xp0`` is Δ(X, P), ``h0`` the weight h, ``g0`` the fall so far, ``sc0``
     the sum of absolute averages used so far; ``o`` the node whose row gives
-    Δ(O, ·). Returns the best (fall, regraft node) seen, starting from
+    Δ(O, ·): side entries (``o_side``, O = U_o) or entries between unrelated
+    subtrees (O = X_o). Returns the best (fall, regraft node) seen, starting from
     ``best``, ``best_t``.
     """
     sp = 0
@@ -83,16 +88,20 @@ def _descend(M, v, o, w0, xp0, h0, g0, sc0, kid1, kid2, n_leaves, sw, sxp, sh, s
         for side in range(2):
             z = kid1[w] if side == 0 else kid2[w]
             zs = kid2[w] if side == 0 else kid1[w]
-            ps = M[w, zs] + h * (M[o, zs] - M[v, zs])
-            delta = 0.25 * (xp + M[z, zs] - M[v, z] - ps)
+            ozs = M[o, zs] if o_side else get(M, stamp, o, zs)
+            vzs = get(M, stamp, v, zs)
+            zzs = near[w, 1]
+            vz = get(M, stamp, v, z)
+            ps = near[zs, 0] + h * (ozs - vzs)
+            delta = 0.25 * (xp + zzs - vz - ps)
             gz = g + delta
-            scz = sc + abs(xp) + abs(M[z, zs]) + abs(M[v, z]) + abs(ps)
-            if gz > RELATIVE_TOLERANCE * scz and gz > best:
+            scz = sc + abs(xp) + abs(zzs) + abs(vz) + abs(ps)
+            if gz > tol * scz and gz > best:
                 best = gz
                 best_t = z
             if z >= n_leaves:
                 sw[sp] = z
-                sxp[sp] = 0.5 * (xp + M[v, zs])
+                sxp[sp] = 0.5 * (xp + vzs)
                 sh[sp] = 0.5 * h
                 sg[sp] = gz
                 ssc[sp] = scz
@@ -101,7 +110,7 @@ def _descend(M, v, o, w0, xp0, h0, g0, sc0, kid1, kid2, n_leaves, sw, sxp, sh, s
 
 
 @nb.njit(cache=True, nogil=True)
-def best_regraft(M, v, parent, kid1, kid2, top, n_leaves, sw, sxp, sh, sg, ssc):
+def best_regraft(M, stamp, near, tol, v, parent, kid1, kid2, top, n_leaves, sw, sxp, sh, sg, ssc):
     """The regraft of X_v of largest fall beyond rounding.
 
     Returns
@@ -118,46 +127,61 @@ def best_regraft(M, v, parent, kid1, kid2, top, n_leaves, sw, sxp, sh, sg, ssc):
     best_t = -1
     # down into X_s: P = U_w without X, O = U_p (row p); at w = s, h = 1/2
     if s >= n_leaves:
-        best, best_t = _descend(M, v, p, s, M[p, v], 0.5, 0.0, 0.0, kid1, kid2, n_leaves,
+        best, best_t = _descend(M, stamp, near, tol, v, p, True, s, near[v, 0], 0.5, 0.0, 0.0, kid1, kid2, n_leaves,
                                 sw, sxp, sh, sg, ssc, best, best_t)
     if q == top:
         return best, best_t
     # up past q: P = X_c without X (c the child of a on the path), O = X_s (row s)
     c = p
     a = q
-    xp = M[v, s]
+    xp = get(M, stamp, v, s)
     h = 0.5
     g = 0.0
     sc = 0.0
     while True:
         r = sibling(c, parent, kid1, kid2)
-        zs = M[a, r]
+        zs = near[r, 0]
         # turn down into X_r: Z = X_r, S = U_a
-        ps = M[a, c] + h * (M[a, s] - M[a, v])
-        gd = g + 0.25 * (xp + zs - M[v, r] - ps)
-        scd = sc + abs(xp) + abs(zs) + abs(M[v, r]) + abs(ps)
-        if gd > RELATIVE_TOLERANCE * scd and gd > best:
+        vr = get(M, stamp, v, r)
+        ps = near[c, 0] + h * (M[a, s] - M[a, v])
+        gd = g + 0.25 * (xp + zs - vr - ps)
+        scd = sc + abs(xp) + abs(zs) + abs(vr) + abs(ps)
+        if gd > tol * scd and gd > best:
             best = gd
             best_t = r
         if r >= n_leaves:
-            best, best_t = _descend(M, v, s, r, 0.5 * (xp + M[a, v]), 0.5 * h, gd, scd, kid1, kid2, n_leaves,
-                                    sw, sxp, sh, sg, ssc, best, best_t)
+            best, best_t = _descend(M, stamp, near, tol, v, s, False, r, 0.5 * (xp + M[a, v]), 0.5 * h, gd, scd, kid1, kid2,
+                                    n_leaves, sw, sxp, sh, sg, ssc, best, best_t)
         # go on up: Z = U_a, S = X_r
-        ps = M[c, r] + h * (M[s, r] - M[v, r])
+        ps = near[a, 1] + h * (get(M, stamp, s, r) - vr)
         gu = g + 0.25 * (xp + zs - M[a, v] - ps)
         scu = sc + abs(xp) + abs(zs) + abs(M[a, v]) + abs(ps)
-        if gu > RELATIVE_TOLERANCE * scu and gu > best:
+        if gu > tol * scu and gu > best:
             best = gu
             best_t = a
         if parent[a] == top:
             break
-        xp = 0.5 * (xp + M[v, r])
+        xp = 0.5 * (xp + vr)
         h = 0.5 * h
         g = gu
         sc = scu
         c = a
         a = parent[a]
     return best, best_t
+
+
+@nb.njit(cache=True, nogil=True)
+def local_entries(M, stamp, parent, kid1, kid2, pre, k, n_leaves, near):
+    """The entries every regraft reads, side by side: ``near[x, 0]`` =
+    Δ(U_p, X_x) for x below ``top``'s child (p its parent), ``near[w, 1]`` =
+    Δ(X_a, X_b) between the two clades below each internal node w."""
+    for t in range(2, k):
+        x = pre[t]
+        near[x, 0] = M[parent[x], x]
+        if x >= n_leaves:
+            near[x, 1] = get(M, stamp, kid1[x], kid2[x])
+    x = kid1[pre[0]]
+    near[x, 1] = get(M, stamp, kid1[x], kid2[x])
 
 
 @nb.njit(cache=True, nogil=True, inline="always")
@@ -191,10 +215,12 @@ def regraft(v, t, parent, kid1, kid2):
 
 
 @nb.njit(cache=True, nogil=True)
-def update_two_paths(M, x, y, parent, kid1, kid2, n_leaves, pre, pos, count, size, depth):
+def update_two_paths(M, stamp, clock, x, y, parent, kid1, kid2, n_leaves, pre, pos, count, size, depth):
     """Bring the balanced table up to date after the clades of x, y and their
-    ancestors changed: their clade rows, deepest first (so a pair of changed
-    clades is last set from up-to-date rows), then every side row."""
+    ancestors changed: their clade rows and columns, deepest first (so a pair
+    of changed clades is last set from up-to-date rows), then every side row.
+    Columns too: every regraft search reads a whole row, and a regraft is
+    rarer than a search."""
     top = pre[0]
     k = preorder(top, kid1, kid2, n_leaves, pre, pos, count, size)
     depth[top] = 0
@@ -218,26 +244,20 @@ def update_two_paths(M, x, y, parent, kid1, kid2, n_leaves, pre, pos, count, siz
         if done[w]:  # an ancestor of both x and y
             continue
         done[w] = True
-        clade_row(M, w, kid1, kid2, pre, k, pos, count, size, True)
+        clade_row(M, stamp, clock, w, kid1, kid2, pre, k, pos, count, size, True, True)
     n_total = size[kid1[top]] + 1
-    side_rows(M, parent, kid1, kid2, pre, k, pos, count, size, n_total, True)
+    side_rows(M, stamp, parent, kid1, kid2, pre, k, pos, count, size, n_total, True)
     return k
 
 
 @nb.njit(cache=True, nogil=True)
-def spr_search(parent, kid1, kid2, top, rows, d, n_leaves):
+def spr_search(M, tol, parent, kid1, kid2, top, rows, d, n_leaves):
     """SPR moves under BME to a local optimum, in place on ``parent``, ``kid1``, ``kid2``.
 
     Parameters
     ----------
-    parent, kid1, kid2 : int64 ndarray (2n − 2,)
-        A binary tree hung from leaf ``top`` (``kid1[top]`` its one child,
-        −1 where a node has no such child).
-    top : int
-    rows : int64 ndarray (n,)
-        The matrix row of each leaf.
-    d : float ndarray (N, N)
-    n_leaves : int
+    M, tol, parent, kid1, kid2, top, rows, d, n_leaves
+        As for :func:`cladewright._kernels.nni.nni_search`.
 
     Returns
     -------
@@ -245,32 +265,38 @@ def spr_search(parent, kid1, kid2, top, rows, d, n_leaves):
         Regrafts made; tables built from the matrix.
     """
     m = parent.shape[0]
-    M = np.zeros((m, m), np.float64)
     pre = np.empty(m, np.int64)
     pos = np.empty(m, np.int64)
     count = np.empty(m, np.int64)
     size = np.empty(m, np.int64)
     depth = np.empty(m, np.int64)
+    stamp = np.zeros(m, np.int64)
+    clock = np.zeros(1, np.int64)
     sw = np.empty(m, np.int64)
     sxp = np.empty(m, np.float64)
     sh = np.empty(m, np.float64)
     sg = np.empty(m, np.float64)
     ssc = np.empty(m, np.float64)
+    near = np.zeros((m, 2), np.float64)
     pre[0] = top
-    moves = 0
-    rounds = 0
+    # interchanges first: the cheap moves, to the NNI optimum (SPR moves
+    # include them), leave the full rounds few regrafts to make
+    moves, rounds = nni_search(M, tol, parent, kid1, kid2, top, rows, d, n_leaves, True)
+    k = build_table(M, stamp, clock, parent, kid1, kid2, rows, d, n_leaves, pre, pos, count, size, True)
+    local_entries(M, stamp, parent, kid1, kid2, pre, k, n_leaves, near)
     while True:
-        build_table(M, parent, kid1, kid2, rows, d, n_leaves, pre, pos, count, size, True)
         rounds += 1
         made = 0
         for v in range(m):
             if v == top or parent[v] < 0 or parent[v] == top:
                 continue
-            gain, t = best_regraft(M, v, parent, kid1, kid2, top, n_leaves, sw, sxp, sh, sg, ssc)
+            gain, t = best_regraft(M, stamp, near, tol, v, parent, kid1, kid2, top, n_leaves, sw, sxp, sh, sg, ssc)
             if t < 0:
                 continue
             q = regraft(v, t, parent, kid1, kid2)
-            update_two_paths(M, q, parent[v], parent, kid1, kid2, n_leaves, pre, pos, count, size, depth)
+            k = update_two_paths(M, stamp, clock, q, parent[v], parent, kid1, kid2, n_leaves, pre, pos, count, size,
+                                 depth)
+            local_entries(M, stamp, parent, kid1, kid2, pre, k, n_leaves, near)
             made += 1
         moves += made
         if made == 0:

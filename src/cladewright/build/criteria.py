@@ -59,6 +59,7 @@ from .leaf_rooted import LeafRootedTree, hang_from_leaf
 from .weighted import fit_of_lengths, weighted_least_squares
 
 __all__ = ["Criterion", "CRITERIA", "LengthCriterion", "LENGTH_CRITERIA", "fit_lengths", "fit_lengths_with_info",
+           "minimum_evolution_lengths",
            "tree_length", "balanced_lengths", "ols_lengths"]
 
 
@@ -149,12 +150,24 @@ def _require_binary(g: LeafRootedTree, criterion: str, source: str | None) -> No
                      source=source)
 
 
+def minimum_evolution_lengths(g: LeafRootedTree, criterion: str, source: str | None = None
+                              ) -> NDArray[np.float64]:
+    """The BME or OLS lengths of a binary hung tree, per node (see :func:`balanced_lengths`, :func:`ols_lengths`).
+
+    Raises
+    ------
+    InputError
+        When the tree has a polytomy.
+    """
+    _require_binary(g, criterion, source)
+    return balanced_lengths(g) if criterion == "bme" else ols_lengths(g)
+
+
 def _work_lengths(g: LeafRootedTree, criterion: str, source: str | None) -> tuple[NDArray[np.float64], int | None]:
     if criterion == "wls":
         start = ols_lengths(g) if g.first_polytomy() < 0 else None
         return weighted_least_squares(g, start)
-    _require_binary(g, criterion, source)
-    return (balanced_lengths(g) if criterion == "bme" else ols_lengths(g)), None
+    return minimum_evolution_lengths(g, criterion, source), None
 
 
 def fit_lengths_with_info(tree: Tree, dm: DistanceMatrix, criterion: Criterion = "bme", *,

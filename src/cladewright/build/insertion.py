@@ -24,6 +24,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .._kernels.insertion import bme_insertion
+from .search import search_table
 
 __all__ = ["insertion_arrays"]
 
@@ -58,7 +59,7 @@ def insertion_arrays(values: ArrayLike) -> NDArray[np.int64]:
     d = np.asarray(values)
     if d.dtype not in (np.float32, np.float64):
         d = d.astype(np.float64)
-    parent = bme_insertion(np.ascontiguousarray(d))
+    parent = bme_insertion(np.ascontiguousarray(d), search_table(d.shape[0])[0])
     # hung from leaf 0: its neighbour becomes the root
     first = int(np.flatnonzero(parent == 0)[0])
     parent[first] = -1

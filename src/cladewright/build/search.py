@@ -46,11 +46,12 @@ from ..errors import InputError
 from .._kernels.nni import hang_children, nni_search
 from .._kernels.spr import spr_search
 from ..matrix import DistanceMatrix
+from ..memory import table_itemsize
 from ..tree import Tree
-from .criteria import LENGTH_CRITERIA, LengthCriterion, fit_lengths_with_info
-from .leaf_rooted import hang_from_leaf
+from .criteria import LENGTH_CRITERIA, LengthCriterion, fit_lengths_with_info, minimum_evolution_lengths
+from .leaf_rooted import LeafRootedTree, hang_from_leaf
 
-__all__ = ["refine_tree", "refine_tree_with_info", "refinement_name", "tree_from_hung"]
+__all__ = ["refine_tree", "refine_tree_with_info", "refinement_name", "search_table", "tree_from_hung"]
 
 
 def refinement_name(refine: object, *, source: str | None = None) -> str:
@@ -92,11 +93,12 @@ def tree_from_hung(parent: NDArray[np.int64], top: int, names: tuple[str, ...]) 
     return Tree(out, np.full(out.shape[0], np.nan), names)
 
 
-def _hung_arrays(tree: Tree, dm: DistanceMatrix, search: str, source: str | None
-                 ) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
-    """The tree as a binary tree hung from its first leaf, nodes renumbered
-    (leaves 0..n−1 kept, internal nodes n..2n−3), and each leaf's matrix row."""
-    g = hang_from_leaf(tree, dm, source=source)
+def _hung_arrays(g: LeafRootedTree, search: str, source: str | None
+                 ) -> tuple[NDArray[np.int64], NDArray[np.int64], NDArray[np.int64]]:
+    """The tree hung from its first leaf as a binary tree, nodes renumbered in
+    preorder (leaves 0..n−1, internal nodes n..2n−3, so that a clade's rows
+    of the search's table lie close together), each leaf's matrix row, and
+    each new leaf's number in the tree."""
     v = g.first_polytomy()
     if v >= 0:
         raise InputError(f"the tree is not binary: a node has {int(g.n_children[v]) + 1} branches; "
@@ -104,13 +106,34 @@ def _hung_arrays(tree: Tree, dm: DistanceMatrix, search: str, source: str | None
                          source=source)
     n = g.n_leaves
     kept = g.pre
-    new = np.full(tree.n_nodes, -1, np.int64)
+    new = np.full(g.tree.n_nodes, -1, np.int64)
     leaf = kept < n
-    new[kept[leaf]] = kept[leaf]
+    leaf_order = kept[leaf]
+    new[leaf_order] = np.arange(n)
     new[kept[~leaf]] = n + np.arange(int(np.count_nonzero(~leaf)))
     parent = np.full(max(2 * n - 2, 1), -1, np.int64)
     parent[new[kept[1:]]] = new[g.wparent[kept[1:]]]
-    return parent, g.rows
+    return parent, g.rows[leaf_order], leaf_order
+
+
+def search_table(n: int) -> tuple[NDArray[np.floating[Any]], float]:
+    """The zeroed table of subtree averages of a search on n taxa and its
+    tolerance: a fall in tree length counts only above this fraction of the
+    averages it is made of (the rounding of float64 or float32 numbers, with
+    a wide margin)."""
+    m = max(2 * n - 2, 1)
+    if table_itemsize(n) == 8:
+        return np.zeros((m, m), np.float64), 1e-10
+    return np.zeros((m, m), np.float32), 1e-5
+
+
+def _original_leaves(parent: NDArray[np.int64], leaf_order: NDArray[np.int64]) -> NDArray[np.int64]:
+    """``parent`` with the leaves numbered as in the start tree again."""
+    back = np.concatenate([leaf_order, np.arange(leaf_order.size, parent.size)])
+    out = np.full(parent.size, -1, np.int64)
+    has = parent >= 0
+    out[back[has]] = back[parent[has]]
+    return out
 
 
 def refine_tree_with_info(tree: Tree, dm: DistanceMatrix, refine: str | None = "nni",
@@ -146,20 +169,29 @@ def refine_tree_with_info(tree: Tree, dm: DistanceMatrix, refine: str | None = "
     if r == "spr" and c != "bme":
         raise InputError(f'refine="spr" searches under balanced minimum evolution only, not criterion="{c}"; '
                          'use criterion="bme", or refine="nni" with criterion="ols"', source=source)
-    start, before = fit_lengths_with_info(tree, dm, c, source=source)
-    moves = rounds = 0
-    result, after = start, before
-    if r != "none" and tree.n_leaves >= 4:
-        parent, rows = _hung_arrays(tree, dm, r, source)
-        n = tree.n_leaves
-        kid1, kid2 = hang_children(parent, 0, n)
-        if r == "spr":
-            moves, rounds = spr_search(parent, kid1, kid2, 0, rows, dm.values, n)
-        else:
-            moves, rounds = nni_search(parent, kid1, kid2, 0, rows, dm.values, n, c == "bme")
-        if moves:
-            topology = tree_from_hung(parent, 0, tree.leaf_names)
-            result, after = fit_lengths_with_info(topology, dm, c, source=source)
+    if r == "none" or tree.n_leaves < 4:
+        result, before = fit_lengths_with_info(tree, dm, c, source=source, fit=False)
+        return result, {"refine": r, "criterion": c, "length_before": before["tree_length"],
+                        "length_after": before["tree_length"], "moves": 0, "rounds": 0,
+                        "negative_branches": before["negative_branches"]}
+    g = hang_from_leaf(tree, dm, source=source)
+    work = minimum_evolution_lengths(g, c, source)
+    before = {"tree_length": float(work[g.branches].sum()),
+              "negative_branches": int(np.count_nonzero(work[g.branches] < 0))}
+    parent, rows, leaf_order = _hung_arrays(g, r, source)
+    n = tree.n_leaves
+    kid1, kid2 = hang_children(parent, 0, n)
+    table, tol = search_table(n)
+    if r == "spr":
+        moves, rounds = spr_search(table, tol, parent, kid1, kid2, 0, rows, dm.values, n)
+    else:
+        moves, rounds = nni_search(table, tol, parent, kid1, kid2, 0, rows, dm.values, n, c == "bme")
+    del table
+    if moves:
+        topology = tree_from_hung(_original_leaves(parent, leaf_order), int(leaf_order[0]), tree.leaf_names)
+        result, after = fit_lengths_with_info(topology, dm, c, source=source, fit=False)
+    else:
+        result, after = g.with_lengths(work), before
     info = {"refine": r, "criterion": c, "length_before": before["tree_length"],
             "length_after": after["tree_length"], "moves": int(moves), "rounds": int(rounds),
             "negative_branches": after["negative_branches"]}
