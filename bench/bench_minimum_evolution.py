@@ -10,6 +10,7 @@ and NJ + NNI against NJ alone at n = 5,000 (time and peak memory, each in a chil
 
     python bench/bench_minimum_evolution.py            # full table (10 replicates a row) and the speed runs
     python bench/bench_minimum_evolution.py --quick    # 2 replicates a row, no n = 500 rows, speed at 200 / 1,000
+    python bench/bench_minimum_evolution.py --speed-only --speed-n 5000   # the speed runs at another size
     python bench/bench_minimum_evolution.py --accuracy-only | --speed-only
 
 Simulation: a random binary tree by joining random pairs of lineages (the topology of the coalescent), branch
@@ -237,9 +238,9 @@ def measure(n, refine):
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
-def speed(quick):
+def speed(quick, n=None):
     nni_vs_skbio(200 if quick else 1000)
-    n = 1000 if quick else 5000
+    n = n or (1000 if quick else 10_000)
     measure(n, "none")  # writes the cached matrix outside the measured runs
     base = measure(n, "none")
     print(f"NJ at n = {n:,}: {base['seconds']:.2f} s, peak {base['peak'] / 2**30:.2f} GiB", flush=True)
@@ -254,6 +255,7 @@ def main():
     ap.add_argument("--quick", action="store_true")
     ap.add_argument("--accuracy-only", action="store_true")
     ap.add_argument("--speed-only", action="store_true")
+    ap.add_argument("--speed-n", type=int, help="taxa of the NJ / NJ+NNI / NJ+SPR speed runs (default 10,000)")
     ap.add_argument("--child", nargs=2, help=argparse.SUPPRESS)
     args = ap.parse_args()
     if args.child:
@@ -262,7 +264,7 @@ def main():
     if not args.speed_only:
         accuracy(args.quick)
     if not args.accuracy_only:
-        speed(args.quick)
+        speed(args.quick, args.speed_n)
 
 
 if __name__ == "__main__":

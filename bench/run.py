@@ -463,6 +463,24 @@ def plot(results, path):
     fig.savefig(path, dpi=110)
 
 
+#: Sections of docs/benchmarks.md made by the other benchmark scripts (bench/bench_minimum_evolution.py,
+#: bench/bench_likelihood.py): carried over as they stand when this suite rewrites the page.
+KEPT_SECTIONS = ("## Minimum evolution", "## Model-based distances")
+
+
+def kept_sections(page: Path) -> str:
+    """The sections of ``page`` that other scripts made (:data:`KEPT_SECTIONS`), in their order."""
+    if not page.exists():
+        return ""
+    kept, keep = [], False
+    for line in page.read_text().splitlines(keepends=True):
+        if line.startswith("## "):
+            keep = line.startswith(KEPT_SECTIONS)
+        if keep:
+            kept.append(line)
+    return "".join(kept)
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true", help="small sizes, print only")
@@ -480,8 +498,10 @@ def main():
         return
     docs = HERE.parent / "docs"
     plot(results, docs / "img" / "benchmarks.png")
-    (docs / "benchmarks.md").write_text(text + "\n" + (HERE / "notes.md").read_text()
-                                        if (HERE / "notes.md").exists() else text)
+    page = docs / "benchmarks.md"
+    others = kept_sections(page)
+    notes = (HERE / "notes.md").read_text() if (HERE / "notes.md").exists() else ""
+    page.write_text(text + ("\n" + notes if notes else "") + ("\n" + others if others else ""))
     print(text)
 
 
