@@ -71,8 +71,9 @@ ALPHABETS: Final[tuple[Alphabet, ...]] = get_args(Alphabet)
 #: Sites a pair uses (``gaps``): those both sequences have, or those every sequence has.
 GapMode = Literal["pairwise", "complete"]
 GAP_MODES: Final[tuple[GapMode, ...]] = get_args(GapMode)
-#: Where base frequencies come from (``freqs``): the whole alignment, or each pair.
-FreqMode = Literal["alignment", "pair"]
+#: Where base frequencies come from (``freqs``): the whole alignment, each pair, or the model's own
+#: (the published frequencies of the empirical amino-acid models).
+FreqMode = Literal["alignment", "pair", "model"]
 FREQ_MODES: Final[tuple[FreqMode, ...]] = get_args(FreqMode)
 #: What an undefined (saturated) distance does (``saturated``): stop the run, or take a cap.
 SaturatedMode = Literal["error", "cap"]

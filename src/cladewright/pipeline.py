@@ -49,7 +49,7 @@ def zero_tolerance(dtype: DTypeLike) -> float:
     return 1e-6 if np.dtype(dtype) == np.float32 else ZERO_TOLERANCE
 
 
-def split_identical(alignment: Alignment, model: str) -> tuple[Alignment, NDArray[np.int64]]:
+def split_identical(alignment: Alignment, model: str | None) -> tuple[Alignment, NDArray[np.int64]]:
     """The alignment to compute on, and the row of it that stands for each sequence.
 
     Parameters
@@ -83,17 +83,17 @@ def identical_info(group: NDArray[np.int64]) -> dict[str, int]:
             "identical_sequences": int(sizes[sizes > 1].sum())}
 
 
-def tree_from_alignment(alignment: Alignment, model: str = "k2p", method: str = "nj", *, gamma: float | None = None,
-                        gaps: str = "pairwise", freqs: str = "alignment", saturated: str = "error",
-                        negative: str = "zero", dtype: DTypeLike = np.float64, progress: bool = False,
-                        refine: str | None = None, criterion: LengthCriterion | None = None
-                        ) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
+def tree_from_alignment(alignment: Alignment, model: str | None = None, method: str = "nj", *,
+                        gamma: float | None = None, gaps: str = "pairwise", freqs: str | None = None,
+                        saturated: str = "error", negative: str = "zero", dtype: DTypeLike = np.float64,
+                        progress: bool = False, refine: str | None = None, criterion: LengthCriterion | None = None,
+                        gamma_categories: int | None = None) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
     """Distances and a tree for an alignment, identical sequences entered once.
 
     Parameters
     ----------
     alignment : Alignment
-    model, gamma, gaps, freqs, saturated : see :func:`cladewright.distance_matrix`
+    model, gamma, gaps, freqs, saturated, gamma_categories : see :func:`cladewright.distance_matrix`
     method, negative, refine, criterion : see :func:`cladewright.build_tree`
     dtype : numpy dtype
         float64, or float32 for half the memory.
@@ -127,18 +127,19 @@ def tree_from_alignment(alignment: Alignment, model: str = "k2p", method: str = 
     distinct, group = split_identical(alignment, model)
     tree, info, dm = distinct_tree(distinct, model, method, gamma=gamma, gaps=gaps, freqs=freqs,
                                    saturated=saturated, negative=negative, dtype=dtype, progress=progress,
-                                   n_sequences=alignment.n_taxa, refine=refine, criterion=criterion)
+                                   n_sequences=alignment.n_taxa, refine=refine, criterion=criterion,
+                                   gamma_categories=gamma_categories)
     info.update(identical_info(group), negative=negative)
     info["warnings"] = run_warnings(info, alignment)
     return finish_tree(tree, alignment.names, group, zero_tolerance(dtype)), info, dm
 
 
-def distinct_tree(distinct: Alignment, model: str, method: str, *, gamma: float | None = None, gaps: str = "pairwise",
-                  freqs: str = "alignment", saturated: str = "error", negative: str = "zero",
-                  dtype: DTypeLike = np.float64, weights: ArrayLike | None = None, fit: bool = True,
-                  serial: bool = False, progress: bool = False, n_sequences: int | None = None,
-                  refine: str | None = None, criterion: LengthCriterion | None = None
-                  ) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
+def distinct_tree(distinct: Alignment, model: str | None, method: str, *, gamma: float | None = None,
+                  gaps: str = "pairwise", freqs: str | None = None, saturated: str = "error",
+                  negative: str = "zero", dtype: DTypeLike = np.float64, weights: ArrayLike | None = None,
+                  fit: bool = True, serial: bool = False, progress: bool = False, n_sequences: int | None = None,
+                  refine: str | None = None, criterion: LengthCriterion | None = None,
+                  gamma_categories: int | None = None) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
     """Distances and the tree of the distinct sequences (see :func:`split_identical`).
 
     Parameters
@@ -161,18 +162,19 @@ def distinct_tree(distinct: Alignment, model: str, method: str, *, gamma: float 
     """
     n_sequences = distinct.n_taxa if n_sequences is None else n_sequences
     if distinct.n_taxa < 3 <= n_sequences:
-        return _few_distinct(distinct, model, gamma, gaps, freqs, saturated, method, dtype, weights)
+        return _few_distinct(distinct, model, gamma, gaps, freqs, saturated, method, dtype, weights,
+                             gamma_categories)
     dm = distance_matrix(distinct, model, gamma, gaps, freqs, saturated=saturated, weights=weights, dtype=dtype,
-                         serial=serial, progress=progress)
+                         serial=serial, progress=progress, gamma_categories=gamma_categories)
     tree, info = build_tree_with_info(dm, method, negative, sizes=distinct.multiplicity, source=distinct.source,
                                       fit=fit, refine=refine, criterion=criterion)
     info.update(dm.info)
     return tree, info, dm
 
 
-def _few_distinct(distinct: Alignment, model: str, gamma: float | None, gaps: str, freqs: str, saturated: str,
-                  method: str, dtype: DTypeLike, weights: ArrayLike | None
-                  ) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
+def _few_distinct(distinct: Alignment, model: str | None, gamma: float | None, gaps: str, freqs: str | None,
+                  saturated: str, method: str, dtype: DTypeLike, weights: ArrayLike | None,
+                  gamma_categories: int | None = None) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
     """The tree of one or two distinct sequences (their groups added later)."""
     from .matrix import DistanceMatrix
     from .tree import Tree
@@ -188,7 +190,7 @@ def _few_distinct(distinct: Alignment, model: str, gamma: float | None, gaps: st
         tree = Tree([-1], [np.nan], names, rooted=m in LINKAGE_METHODS)
     else:
         dm = distance_matrix(distinct, model, gamma, gaps, freqs, saturated=saturated, weights=weights,
-                             dtype=dtype)
+                             dtype=dtype, gamma_categories=gamma_categories)
         half = float(dm.values[0, 1]) / 2.0
         tree = Tree([2, 2, -1], [half, half, np.nan], names, rooted=m in LINKAGE_METHODS)
     info = {"method": m, "negative_branches": 0, "fit_name": None, "fit_value": None}

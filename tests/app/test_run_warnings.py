@@ -151,6 +151,8 @@ def _library_messages(tmp_path):
         _message(lambda: distance_matrix(near, "poisson")),  # a protein model on DNA
         _message(lambda: encode(["a"], ["ACEFG"], "dna", "x.fasta")),  # amino acids read as DNA
         _message(lambda: distance_matrix(protein, "k2p")),  # a DNA model on protein
+        _message(lambda: distance_matrix(protein, "lg", freqs="pair")),  # frequencies a protein model refuses
+        _message(lambda: distance_matrix(protein, "lg", gamma_categories=4)),  # categories without a shape
         # 5,000 taxa, BIONJ, 4 workers: about 4.2 GB; in float32, with 3 workers or with NJ under 3.5 GiB
         _message(lambda: check_fits(5_000, method="bionj", workers=4, available=int(3.5 * 2**30))),
         _message(lambda: bootstrap(near, 2, resume=True, progress=False)),  # resume without a file

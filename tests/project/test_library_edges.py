@@ -351,8 +351,8 @@ def test_matrix_parameters(kwargs, phrase):
 
 
 @pytest.mark.parametrize("kwargs,phrase", [
-    ({"model": "hky"}, "unknown model 'hky'"),
-    ({"model": None}, "unknown model None"),
+    ({"model": "nope"}, "unknown model 'nope'"),
+    ({"model": 42}, "unknown model 42"),
     ({"gaps": "none"}, "unknown gap mode gaps='none'; choose gaps=\"pairwise\" or \"complete\""),
     ({"gaps": ["pairwise"]}, "gaps=\\['pairwise'\\]"),
     ({"gaps": np.array(["pairwise", "complete"])}, "gaps=array"),

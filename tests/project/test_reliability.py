@@ -141,7 +141,7 @@ def test_too_few_sequences():
 @pytest.mark.parametrize("model,alphabet,gamma,fragment", [
     ("k2p", "protein", None, "model 'k2p' is for dna but the alignment is protein"),
     ("poisson", "dna", None, "model 'poisson' is for protein but the alignment is dna"),
-    ("hky", "dna", None, "unknown model 'hky'; choose one of"),
+    ("nope", "dna", None, "unknown model 'nope'; choose one of"),
     ("jc69", "dna", 0.0, "gamma shape 0.0 must be a positive number"),
     ("k2p", "dna", -1.0, "gamma shape -1.0 must be a positive number"),
     ("tn93", "dna", math.nan, "must be a positive number"),

@@ -41,6 +41,10 @@ PARAMETER_OPTIONS: tuple[tuple[str | re.Pattern[str], str], ...] = (
     ('precision="single"', "--precision single"),
     ('alphabet="protein"', "--alphabet protein"),
     ('saturated="cap"', "--saturated cap"),
+    ('freqs="alignment"', "--freqs alignment"),
+    ("gamma_categories=", "--gamma-categories "),
+    ("gamma=ALPHA", "--gamma ALPHA"),
+    ('freqs="model"', "--freqs model"),
     ('gaps="pairwise"', "--gaps pairwise"),
     ('alphabet="dna"', "--alphabet dna"),
     ("scheduler needs", "--scheduler needs"),
@@ -144,14 +148,18 @@ def _apply(func: F, options: Sequence[Callable[[F], F]]) -> F:
 def model_options(func: F) -> F:
     """Options shared by every command that computes distances."""
     return _apply(func, [
-        click.option("--model", "-m", default="k2p", show_default=True, metavar="MODEL",
-                     help="Substitution model for the distances (listed below)."),
+        click.option("--model", "-m", default=None, metavar="MODEL",
+                     help="Substitution model for the distances (listed below)  [default: k2p for DNA, lg for "
+                          "protein]"),
         click.option("--gamma", type=float, default=None, metavar="ALPHA",
-                     help="Shape of the gamma distribution of rates across sites (jc69, k2p, f81, tn93, poisson)."),
+                     help="Shape of the gamma distribution of rates across sites (jc69, k2p, f81, tn93, poisson "
+                          "and the likelihood models gtr, hky, jtt, wag, lg, dcmut)."),
         click.option("--gaps", type=click.Choice(GAP_MODES), default="pairwise", show_default=True,
                      help="pairwise: each pair uses the sites both have; complete: only sites every sequence has."),
-        click.option("--freqs", type=click.Choice(FREQ_MODES), default="alignment", show_default=True,
-                     help="Base frequencies (f81, f84, t92, tn93) from the whole alignment or from each pair."),
+        click.option("--freqs", type=click.Choice(FREQ_MODES), default=None,
+                     help="Base frequencies (f81, f84, t92, tn93) from the whole alignment or from each pair; "
+                          "amino-acid frequencies of jtt, wag, lg, dcmut from the model or the alignment  "
+                          "[default: model for those four, alignment otherwise]"),
         click.option("--saturated", type=click.Choice(SATURATED_MODES), default="error", show_default=True,
                      help="Undefined (saturated) distances: stop, or set them to twice the largest defined one."),
         click.option("--alphabet", type=click.Choice(ALPHABETS), default=None,

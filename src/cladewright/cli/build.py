@@ -14,7 +14,7 @@ import click
 
 from ..choices import (INSERTION_METHODS, JOINING_METHODS, LINKAGE_METHODS, NEGATIVE_RULES, PRECISIONS, REFINEMENTS,
                        SUPPORT_MEASURES)
-from ..distances import MODELS
+from ..distances import DEFAULT_MODELS, MODELS
 from ..errors import InputError
 from ..matrix import DistanceMatrix
 from ..memory import check_fits
@@ -30,7 +30,7 @@ if TYPE_CHECKING:
 
 __all__ = ["distances", "tree", "read_input"]
 
-MODEL_HELP: str = "\b\nModels (--model):\n" + "\n".join(
+MODEL_HELP: str = "\b\nModels (--model; default: k2p for DNA, lg for protein):\n" + "\n".join(
     f"  {name:<11} {spec.summary} ({spec.citation})" for name, spec in MODELS.items() if name != "protein-p")
 
 
@@ -38,10 +38,14 @@ MODEL_HELP: str = "\b\nModels (--model):\n" + "\n".join(
 @click.argument("alignment", metavar="ALIGNMENT")
 @click.option("--output", "-o", required=True, metavar="FILE", help="Labelled TSV matrix to write ('-': stdout).")
 @model_options
+@click.option("--gamma-categories", type=click.IntRange(1, 256), default=None, metavar="K",
+              help="With --gamma and a likelihood model (gtr, hky, jtt, wag, lg, dcmut): K discrete gamma "
+                   "categories (Yang 1994) instead of the continuous gamma.")
 @click.pass_obj
 @guarded
-def distances(obj: Context, alignment: str, output: str, model: str, gamma: float | None, gaps: str, freqs: str,
-              saturated: str, alphabet: str | None, precision: str) -> None:
+def distances(obj: Context, alignment: str, output: str, model: str | None, gamma: float | None, gaps: str,
+              freqs: str | None, saturated: str, alphabet: str | None, precision: str,
+              gamma_categories: int | None) -> None:
     """Write the matrix of pairwise distances of ALIGNMENT (FASTA or NEXUS, '-' for stdin)."""
     from ..distances import distance_matrix
     from ..io.readers import read_alignment
@@ -50,8 +54,9 @@ def distances(obj: Context, alignment: str, output: str, model: str, gamma: floa
     start = time.perf_counter()
     aln = read_alignment(alignment, alphabet=alphabet)
     check_fits(aln.n_taxa, precision=precision)
-    dm = distance_matrix(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated,
-                         dtype=PRECISIONS[precision], progress=not obj.quiet)
+    dm = distance_matrix(aln, model=model or DEFAULT_MODELS[aln.alphabet], gamma=gamma, gaps=gaps, freqs=freqs,
+                         saturated=saturated, dtype=PRECISIONS[precision], progress=not obj.quiet,
+                         gamma_categories=gamma_categories)
     dm.write(output)
     obj.say(distance_summary(aln, dm, time.perf_counter() - start))
 
@@ -105,6 +110,9 @@ def _check_outputs(input_path: str, output: str, save_replicates: str | None, re
               help="Criterion of --refine and of the lengths of refined and bme trees: balanced minimum "
                    "evolution (default) or ordinary least squares.")
 @model_options
+@click.option("--gamma-categories", type=click.IntRange(1, 256), default=None, metavar="K",
+              help="With --gamma and a likelihood model (gtr, hky, jtt, wag, lg, dcmut): K discrete gamma "
+                   "categories (Yang 1994) instead of the continuous gamma.")
 @click.option("--negative", type=click.Choice(NEGATIVE_RULES), default="zero", show_default=True,
               help="Negative NJ/BIONJ branch lengths: set to zero, or keep as computed.")
 @click.option("--root", "root_spec", default=None, metavar="midpoint|TAXON[,TAXON]",
@@ -129,11 +137,11 @@ def _check_outputs(input_path: str, output: str, save_replicates: str | None, re
 @click.pass_obj
 @guarded
 def tree(obj: Context, input_path: str, output: str, method: str, refine: str, criterion: LengthCriterion | None,
-         model: str, gamma: float | None, gaps: str,
-         freqs: str, saturated: str, alphabet: str | None, precision: str, negative: str, root_spec: str | None,
+         model: str | None, gamma: float | None, gaps: str,
+         freqs: str | None, saturated: str, alphabet: str | None, precision: str, negative: str, root_spec: str | None,
          replicates: int, seed: int | None, workers: int | None, measure: str, save_replicates: str | None,
          resume: bool, scheduler: str | None, report_path: str | None, binary: bool, fmt: str | None,
-         digits: int | None, support_digits: int) -> None:
+         digits: int | None, support_digits: int, gamma_categories: int | None) -> None:
     """Build a tree from INPUT: an alignment (FASTA or NEXUS) or a labelled distance matrix (TSV)."""
     from ..build import build_tree_with_info
     from ..pipeline import split_identical, tree_from_alignment, zero_tolerance
@@ -143,6 +151,8 @@ def tree(obj: Context, input_path: str, output: str, method: str, refine: str, c
     rooting = root_options(root_spec) if root_spec else None
     start = time.perf_counter()
     aln, dm = read_input(input_path, alphabet, precision)
+    if aln is not None and model is None:
+        model = DEFAULT_MODELS[aln.alphabet]  # the default model follows the alignment's alphabet
     # identical sequences enter the distances and the tree once: the matrix is that of the distinct ones
     if aln is not None:
         n_taxa = split_identical(aln, model)[0].n_taxa
@@ -162,7 +172,7 @@ def tree(obj: Context, input_path: str, output: str, method: str, refine: str, c
                          saturated=saturated, negative=negative, seed=seed, workers=workers, support=measure,
                          save_replicates=save_replicates, resume=resume, scheduler=scheduler,
                          progress=not obj.quiet, precision=precision, refine=refine,
-                         criterion=criterion)
+                         criterion=criterion, gamma_categories=gamma_categories)
         result, info, dm = boot.tree, boot.info, boot.matrix
         assert dm is not None  # bootstrap() always returns the matrix of the original data
     elif dm is None:
@@ -170,7 +180,7 @@ def tree(obj: Context, input_path: str, output: str, method: str, refine: str, c
         result, info, dm = tree_from_alignment(aln, model, method, gamma=gamma, gaps=gaps, freqs=freqs,
                                                saturated=saturated, negative=negative,
                                                dtype=PRECISIONS[precision], progress=not obj.quiet, refine=refine,
-                                               criterion=criterion)
+                                               criterion=criterion, gamma_categories=gamma_categories)
     else:
         result, info = build_tree_with_info(dm, method, negative, source=input_path, refine=refine,
                                             criterion=criterion)

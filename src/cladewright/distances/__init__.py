@@ -3,6 +3,9 @@
 :func:`distance_matrix` packs the site patterns once, counts every pair in
 compiled blocks (:mod:`.counts`), and applies the model's formula
 (:mod:`.nucleotide`, :mod:`.protein`) to the counts of a block at a time.
+The models without a closed form (JTT, WAG, LG, DCMut, GTR, HKY) give each
+pair its maximum-likelihood distance (:mod:`.likelihood`), computed in
+compiled blocks from the same weighted site patterns.
 """
 
 from __future__ import annotations
@@ -10,7 +13,7 @@ from __future__ import annotations
 import math
 import numbers
 from dataclasses import dataclass
-from typing import Any, Callable, Mapping, Optional
+from typing import Any, Callable, Iterator, Mapping, Optional
 
 import numpy as np
 from numpy.typing import ArrayLike, DTypeLike, NDArray
@@ -22,6 +25,7 @@ from .._kernels import counts as kc
 from .._kernels.matrix import mirror_upper, pairs_before
 from ..matrix import DistanceMatrix, as_float_dtype
 from ..progress import Progress
+from . import likelihood as lik
 from . import nucleotide as nuc
 from . import protein as prot
 from .counts import iter_count_blocks, pack, state_frequencies
@@ -40,12 +44,13 @@ class Model:
 
     name: str
     alphabet: Alphabet
-    formula: Formula
+    formula: Optional[Formula]  # None for the models computed by likelihood
     counts: int              # which pair counts the formula needs (_kernels.counts constants)
     uses_freqs: bool
     gamma: bool
     summary: str
     citation: str
+    likelihood: bool = False  # each pair's distance by maximum likelihood (distances/likelihood.py)
 
 
 MODELS: dict[str, Model] = {m.name: m for m in [
@@ -67,13 +72,28 @@ MODELS: dict[str, Model] = {m.name: m for m in [
           "robust to base composition differing between lineages", "Lockhart, Steel, Hendy & Penny 1994"),
     Model("paralinear", "dna", nuc.paralinear, kc.FULL, False, False,
           "LogDet scaled by each sequence's composition", "Lake 1994"),
+    Model("gtr", "dna", None, kc.FULL, True, True, "general reversible rates estimated from the alignment; "
+          "maximum likelihood", "Tavaré 1986; rates: Waddell & Steel 1997", True),
+    Model("hky", "dna", None, kc.FULL, True, True, "transition/transversion ratio and base frequencies "
+          "estimated from the alignment; maximum likelihood", "Hasegawa, Kishino & Yano 1985", True),
     Model("protein-p", "protein", nuc.p_distance, kc.IDENTITY, False, False,
           "proportion of differing residues, uncorrected", "common practice"),
     Model("poisson", "protein", prot.poisson, kc.IDENTITY, False, True,
           "equal rates among amino acids", "Zuckerkandl & Pauling 1965"),
     Model("kimura", "protein", prot.kimura_protein, kc.IDENTITY, False, False,
           "Kimura's approximation for protein", "Kimura 1983"),
+    Model("jtt", "protein", None, kc.IDENTITY, True, True, "empirical amino-acid replacement rates; maximum "
+          "likelihood", "Jones, Taylor & Thornton 1992", True),
+    Model("wag", "protein", None, kc.IDENTITY, True, True, "empirical amino-acid replacement rates; maximum "
+          "likelihood", "Whelan & Goldman 2001", True),
+    Model("lg", "protein", None, kc.IDENTITY, True, True, "empirical amino-acid replacement rates; maximum "
+          "likelihood", "Le & Gascuel 2008", True),
+    Model("dcmut", "protein", None, kc.IDENTITY, True, True, "Dayhoff's replacement rates (DCMut form); "
+          "maximum likelihood", "Kosiol & Goldman 2005", True),
 ]}
+
+#: The model each alphabet gets when none is named.
+DEFAULT_MODELS: dict[str, str] = {"dna": "k2p", "protein": "lg"}
 
 MAX_LISTED = 10
 # Models whose formula gives 0 for two identical sequences whatever the base
@@ -81,12 +101,13 @@ MAX_LISTED = 10
 ZERO_WHEN_IDENTICAL = frozenset(MODELS) - {"logdet"}
 
 
-def resolve_model(model: str, alphabet: str, source: str | None = None) -> Model:
+def resolve_model(model: str | None, alphabet: str, source: str | None = None) -> Model:
     """The :class:`Model` for a name, checked against the data's alphabet.
 
-    ``p`` means the protein p-distance on protein data.
+    ``p`` means the protein p-distance on protein data; None the alphabet's
+    default (:data:`DEFAULT_MODELS`: k2p for DNA, lg for protein).
     """
-    key = str(model).lower()
+    key = DEFAULT_MODELS.get(alphabet, "k2p") if model is None else str(model).lower()
     if key == "p" and alphabet == "protein":
         key = "protein-p"
     if key not in MODELS:
@@ -101,28 +122,34 @@ def resolve_model(model: str, alphabet: str, source: str | None = None) -> Model
     return spec
 
 
-def distance_matrix(alignment: Alignment, model: str = "k2p", gamma: float | None = None, gaps: str = "pairwise",
-                    freqs: str = "alignment", *, saturated: str = "error", weights: ArrayLike | None = None,
-                    dtype: DTypeLike = np.float64, serial: bool = False, progress: bool = False) -> DistanceMatrix:
+def distance_matrix(alignment: Alignment, model: str | None = None, gamma: float | None = None,
+                    gaps: str = "pairwise", freqs: str | None = None, *, saturated: str = "error",
+                    weights: ArrayLike | None = None, dtype: DTypeLike = np.float64, serial: bool = False,
+                    progress: bool = False, gamma_categories: int | None = None) -> DistanceMatrix:
     """All pairwise distances of an alignment under a substitution model.
 
     Parameters
     ----------
     alignment : Alignment
-    model : str
+    model : str, optional
         One of :data:`MODELS` (``p``, ``jc69``, ``k2p``, ``f81``, ``f84``,
-        ``t92``, ``tn93``, ``logdet``, ``paralinear``; protein ``p``,
-        ``poisson``, ``kimura``).
+        ``t92``, ``tn93``, ``logdet``, ``paralinear``, and by maximum
+        likelihood ``gtr``, ``hky``; protein ``p``, ``poisson``, ``kimura``,
+        and by maximum likelihood ``jtt``, ``wag``, ``lg``, ``dcmut``).
+        Default: k2p for DNA, lg for protein.
     gamma : float, optional
         Shape alpha > 0 (finite) of the gamma distribution of rates across
-        sites, for jc69, k2p, f81, tn93 and poisson; None for equal rates
-        (the limit as alpha grows without bound).
+        sites, for jc69, k2p, f81, tn93, poisson and the likelihood models;
+        None for equal rates (the limit as alpha grows without bound).
     gaps : {"pairwise", "complete"}
         ``pairwise``: each pair uses the sites where both sequences are
         unambiguous; ``complete``: only the sites unambiguous in every sequence.
-    freqs : {"alignment", "pair"}
+    freqs : {"alignment", "pair", "model"}, optional
         Base frequencies for f81, f84, t92 and tn93: from every unambiguous
-        state of the sites in use, or from the two sequences compared.
+        state of the sites in use, or from the two sequences compared; for
+        jtt, wag, lg and dcmut, the model's own amino-acid frequencies
+        ("model") or the alignment's. Default: "model" for those four,
+        "alignment" for the others (gtr and hky take only "alignment").
     saturated : {"error", "cap"}
         What to do with pairs whose distance is undefined (a logarithm's
         argument <= 0): stop with an error naming them, or replace them with
@@ -139,6 +166,10 @@ def distance_matrix(alignment: Alignment, model: str = "k2p", gamma: float | Non
     progress : bool
         A progress line with the time left on stderr, when it is a terminal
         (worth it from some thousands of taxa).
+    gamma_categories : int, optional
+        With ``gamma`` and a likelihood model: k equal-probability
+        categories of discrete gamma rates (Yang 1994) in place of the
+        continuous gamma distribution.
 
     Returns
     -------
@@ -153,7 +184,8 @@ def distance_matrix(alignment: Alignment, model: str = "k2p", gamma: float | Non
 
     References
     ----------
-    See :mod:`cladewright.distances.nucleotide` and :mod:`.protein` for each formula.
+    See :mod:`cladewright.distances.nucleotide` and :mod:`.protein` for each
+    formula, and :mod:`.likelihood` for the likelihood models.
 
     Examples
     --------
@@ -175,9 +207,16 @@ def distance_matrix(alignment: Alignment, model: str = "k2p", gamma: float | Non
                              source=src)
     if not isinstance(gaps, str) or gaps not in GAP_MODES:
         raise InputError(f"unknown gap mode gaps={gaps!r}; choose gaps=\"pairwise\" or \"complete\"", source=src)
+    if freqs is None:
+        freqs = "model" if spec.likelihood and spec.alphabet == "protein" else "alignment"
     if not isinstance(freqs, str) or freqs not in FREQ_MODES:
-        raise InputError(f"unknown base-frequency source freqs={freqs!r}; choose freqs=\"alignment\" or \"pair\"",
-                         source=src)
+        raise InputError(f"unknown base-frequency source freqs={freqs!r}; choose freqs=\"alignment\", \"pair\" "
+                         "or \"model\"", source=src)
+    if freqs == "model" and spec.uses_freqs and not (spec.likelihood and spec.alphabet == "protein"):
+        raise InputError(f"freqs=\"model\" is for the protein models jtt, wag, lg and dcmut; for {spec.name} "
+                         "choose freqs=\"alignment\"" + ("" if spec.likelihood else " or \"pair\""), source=src)
+    if gamma_categories is not None:
+        gamma_categories = lik.check_categories(gamma_categories, gamma, spec.likelihood, src)
     if not isinstance(saturated, str) or saturated not in SATURATED_MODES:
         raise InputError(f"unknown saturation rule saturated={saturated!r}; choose saturated=\"error\" or "
                          "\"cap\"", source=src)
@@ -193,8 +232,9 @@ def distance_matrix(alignment: Alignment, model: str = "k2p", gamma: float | Non
         distinct, group = distinct_sequences(alignment)
         if distinct is not alignment and distinct.n_taxa >= 2:
             try:
-                return _expanded(distance_matrix(distinct, model, gamma, gaps, freqs, saturated=saturated,
-                                                 dtype=dtype, serial=serial, progress=progress),
+                return _expanded(distance_matrix(distinct, spec.name, gamma, gaps, freqs, saturated=saturated,
+                                                 dtype=dtype, serial=serial, progress=progress,
+                                                 gamma_categories=gamma_categories),
                                  alignment.names, group)
             except InputError:
                 pass  # computed again on every row below, so that the message names every pair
@@ -209,33 +249,31 @@ def distance_matrix(alignment: Alignment, model: str = "k2p", gamma: float | Non
             raise InputError("no site is unambiguous in every sequence, so complete deletion leaves nothing; "
                              "use gaps=\"pairwise\"", source=src)
 
-    kind = spec.counts
-    pi = None
-    if spec.uses_freqs:
-        if freqs == "pair":
-            kind = kc.COMPOSITION
-        else:
-            pi = state_frequencies(patterns, weights, k, use, alignment.multiplicity)
-            _check_frequencies(spec, pi, src)
-    packed = pack(patterns, weights, k, use)
+    fitted = None
+    if spec.likelihood:
+        fitted = lik.model_for(spec.name, patterns, weights, use, alignment.multiplicity, freqs, gamma,
+                               gamma_categories, src)
+        blocks = lik.likelihood_blocks(fitted, patterns, weights, use, serial)
+        n_sites = int(weights[(weights > 0) if use is None else (weights > 0) & use].sum())
+    else:
+        kind = spec.counts
+        pi = None
+        if spec.uses_freqs:
+            if freqs == "pair":
+                kind = kc.COMPOSITION
+            else:
+                pi = state_frequencies(patterns, weights, k, use, alignment.multiplicity)
+                _check_frequencies(spec, pi, src)
+        packed = pack(patterns, weights, k, use)
+        n_sites = int(packed.n_sites)
+        blocks = _formula_blocks(spec, packed, kind, pi, gamma, serial)
     values = np.zeros((n, n), dtype=dtype)
     undefined: list[tuple[int, int]] = []
     empty: list[tuple[int, int]] = []
     n_undefined = 0
     with np.errstate(all="ignore"), Progress("distances", n * (n - 1) // 2, enabled=progress) as bar:
-        for r0, r1, block in iter_count_blocks(packed, kind, serial=serial):
-            c = _count_dict(block, kind)
-            pair_pi = pi
-            if kind == kc.COMPOSITION:
-                pair_pi = (c["comp_i"] + c["comp_j"]) / (2.0 * c["shared"][:, None])
-            d = spec.formula(c, pair_pi, gamma)
-            if spec.name in ZERO_WHEN_IDENTICAL:
-                # A pair with no difference is at distance 0 in these models
-                # (every log term is ln 1 = 0), even where a frequency term
-                # is 0/0 (a base absent from a constant alignment).
-                d = np.where(c["same"] == c["shared"], 0.0, d)
-            d = d + 0.0  # -0.0 (from -ln 1) would be written as '-0.0'
-            no_sites = c["shared"] == 0
+        for r0, d, shared in blocks:
+            no_sites = shared == 0
             if no_sites.any():
                 empty.extend(_pairs_at(no_sites, r0, n, 1))
                 break
@@ -252,12 +290,15 @@ def distance_matrix(alignment: Alignment, model: str = "k2p", gamma: float | Non
         raise InputError(f"sequences {names[i]!r} and {names[j]!r} share no unambiguous site, so their "
                          "distance is undefined; remove one of them or trim the alignment", source=src)
     info: dict[str, Any] = {"model": spec.name, "gamma": gamma, "gaps": gaps,
-                            "freqs": freqs if spec.uses_freqs else None, "sites_used": int(packed.n_sites),
+                            "freqs": freqs if spec.uses_freqs else None, "sites_used": n_sites,
                             "saturated": 0, "cap": None}
+    if fitted is not None:
+        info.update(fitted.info, gamma_categories=gamma_categories)
     if n_undefined:
         listed = "; ".join(f"{names[i]}-{names[j]}" for i, j in undefined)
         more = f" and {n_undefined - len(undefined)} more" if n_undefined > len(undefined) else ""
-        why = ("saturated: a logarithm's argument <= 0" if not (spec.uses_freqs or kind == kc.FULL) else
+        why = (f"saturated: the likelihood still rises at distance {fitted.t_max:.3g}" if fitted is not None else
+               "saturated: a logarithm's argument <= 0" if not (spec.uses_freqs or spec.counts == kc.FULL) else
                "saturated, or a base the model needs is absent: a logarithm's argument <= 0")
         if saturated == "error":
             raise SaturationError(
@@ -270,6 +311,24 @@ def distance_matrix(alignment: Alignment, model: str = "k2p", gamma: float | Non
         info.update(saturated=n_undefined, cap=cap, saturated_pairs=[(names[i], names[j]) for i, j in undefined])
     mirror_upper(values)
     return DistanceMatrix._adopt(names, values, info=info)
+
+
+def _formula_blocks(spec: Model, packed: Any, kind: int, pi: Any, gamma: float | None,
+                    serial: bool) -> Iterator[tuple[int, NDArray[np.float64], NDArray[np.int64]]]:
+    """``(r0, d, shared)`` per block of rows: the model's formula on the counting engine's counts."""
+    assert spec.formula is not None  # the closed-form models
+    for r0, _, block in iter_count_blocks(packed, kind, serial=serial):
+        c = _count_dict(block, kind)
+        pair_pi = pi
+        if kind == kc.COMPOSITION:
+            pair_pi = (c["comp_i"] + c["comp_j"]) / (2.0 * c["shared"][:, None])
+        d = spec.formula(c, pair_pi, gamma)
+        if spec.name in ZERO_WHEN_IDENTICAL:
+            # A pair with no difference is at distance 0 in these models
+            # (every log term is ln 1 = 0), even where a frequency term
+            # is 0/0 (a base absent from a constant alignment).
+            d = np.where(c["same"] == c["shared"], 0.0, d)
+        yield r0, d + 0.0, c["shared"]  # + 0.0: -0.0 (from -ln 1) would be written as '-0.0'
 
 
 def _gamma_shape(gamma: float, source: str | None) -> float:

@@ -48,7 +48,7 @@ class ReplicateJob:
     alphabet: Alphabet
     seed: int
     settings: tuple[Any, ...]     # (model, gamma, gaps, freqs, saturated, method, negative, precision, refine,
-    #                               criterion)
+    #                               criterion, gamma_categories)
     source: str                   # the alignment's file, for messages
     all_names: tuple[str, ...]    # every sequence, in the alignment's order
     group: NDArray[np.int64]      # the distinct row standing for each sequence
@@ -69,7 +69,8 @@ class ReplicateJob:
             The distinct row standing for each sequence of ``alignment``.
         seed : int
         settings : tuple
-            (model, gamma, gaps, freqs, saturated, method, negative, precision, refine, criterion).
+            (model, gamma, gaps, freqs, saturated, method, negative, precision, refine, criterion,
+            gamma_categories).
 
         Returns
         -------
@@ -117,12 +118,13 @@ def replicate_tree(job: ReplicateJob, index: int) -> ReplicateResult:
     """
     from ..pipeline import distinct_tree, finish_tree, zero_tolerance
 
-    model, gamma, gaps, freqs, saturated, method, negative, precision, refine, criterion = job.settings
+    model, gamma, gaps, freqs, saturated, method, negative, precision, refine, criterion, categories = job.settings
     w = replicate_weights(job.weights, job.seed, index)
     dtype = PRECISIONS[precision]
     tree, _, dm = distinct_tree(job.alignment(index), model, method, gamma=gamma, gaps=gaps, freqs=freqs,
                                 saturated="cap", negative=negative, dtype=dtype, weights=w, fit=False,
-                                serial=True, n_sequences=len(job.all_names), refine=refine, criterion=criterion)
+                                serial=True, n_sequences=len(job.all_names), refine=refine, criterion=criterion,
+                                gamma_categories=categories)
     # identical sequences back as polytomies, branches of length zero contracted, as in the main tree
     tree = finish_tree(tree, job.all_names, job.group, zero_tolerance(dtype))
     return index, tree.parent, tree.length, tree.rooted, bool(dm.info.get("saturated"))

@@ -53,13 +53,13 @@ class BootstrapResult:
     matrix: DistanceMatrix | None = None
 
 
-def bootstrap(alignment: Alignment, replicates: int = 100, *, model: str = "k2p", method: str = "nj",
-              gamma: float | None = None, gaps: str = "pairwise", freqs: str = "alignment", saturated: str = "error",
+def bootstrap(alignment: Alignment, replicates: int = 100, *, model: str | None = None, method: str = "nj",
+              gamma: float | None = None, gaps: str = "pairwise", freqs: str | None = None, saturated: str = "error",
               negative: str = "zero", seed: int | None = None, workers: int | None = None, support: str = "fbp",
               save_replicates: str | os.PathLike[str] | None = None, resume: bool = False,
               scheduler: str | Client | None = None, progress: bool = True,
               precision: str = "double", refine: str | None = None,
-              criterion: LengthCriterion | None = None) -> BootstrapResult:
+              criterion: LengthCriterion | None = None, gamma_categories: int | None = None) -> BootstrapResult:
     """Bootstrap support for the tree of an alignment.
 
     Parameters
@@ -67,7 +67,7 @@ def bootstrap(alignment: Alignment, replicates: int = 100, *, model: str = "k2p"
     alignment : Alignment
     replicates : int
         Number of bootstrap replicates (>= 1).
-    model, gamma, gaps, freqs, saturated : see :func:`cladewright.distance_matrix`
+    model, gamma, gaps, freqs, saturated, gamma_categories : see :func:`cladewright.distance_matrix`
     method, negative, refine, criterion : see :func:`cladewright.build_tree`; every replicate
         uses the same start and refinement as the main tree
     seed : int, optional
@@ -136,7 +136,8 @@ def bootstrap(alignment: Alignment, replicates: int = 100, *, model: str = "k2p"
     # Identical sequences enter once; they stay identical in every replicate.
     distinct, group = split_identical(alignment, model)
     job = ReplicateJob.of(alignment, distinct, group, seed,
-                          (model, gamma, gaps, freqs, saturated, method, negative, precision, refine, criterion))
+                          (model, gamma, gaps, freqs, saturated, method, negative, precision, refine, criterion,
+                           gamma_categories))
     done: list[Tree] = []
     rfile: ReplicateFile | None = None
     path: str | None = None
@@ -152,7 +153,8 @@ def bootstrap(alignment: Alignment, replicates: int = 100, *, model: str = "k2p"
         dtype = PRECISIONS[precision]
         tree, info, dm = distinct_tree(distinct, model, method, gamma=gamma, gaps=gaps, freqs=freqs,
                                        saturated=saturated, negative=negative, dtype=dtype, progress=progress,
-                                       n_sequences=alignment.n_taxa, refine=refine, criterion=criterion)
+                                       n_sequences=alignment.n_taxa, refine=refine, criterion=criterion,
+                                       gamma_categories=gamma_categories)
         tree = finish_tree(tree, alignment.names, group, zero_tolerance(dtype))
         info.update(identical_info(group))
         if path is not None and rfile is None:
