@@ -485,6 +485,7 @@ def test_command_line_default_model_follows_the_alphabet(tmp_path):
     aln = make_alignment(["a", "b", "c"], ["MKLVAAGHWERTYPLKM", "MKIVAAGHWDRTYPLKL", "MRLVSAGHWERTFPLKM"], "protein")
     np.testing.assert_allclose(table, distance_matrix(aln, "wag", gamma=0.5, gamma_categories=4).values,
                                rtol=1e-15)
+    assert "model     wag + gamma (alpha 0.5, 4 categories)" in ours.stderr  # the settings as given
     wrong = runner.invoke(main, ["distances", str(protein), "-o", "-", "--gamma-categories", "4"])
     assert wrong.exit_code == 2 and "--gamma-categories 4 needs a gamma shape" in wrong.stderr
     helped = runner.invoke(main, ["distances", "--help"]).output

@@ -42,13 +42,22 @@ def identical_lines(info: Mapping[str, Any]) -> list[str]:
             "each computed once and written as a polytomy"]
 
 
+def model_line(info: Mapping[str, Any]) -> str:
+    """``model     NAME`` with its gamma shape and, for discrete gamma, the number of categories."""
+    line = f"model     {info.get('model', '')}"
+    if info.get("gamma"):
+        k = info.get("gamma_categories")
+        line += f" + gamma (alpha {info['gamma']:g}" + (f", {k} categories)" if k else ")")
+    return line
+
+
 def distance_summary(aln: Alignment, dm: DistanceMatrix, seconds: float) -> str:
     """The summary the ``distances`` command prints: input, sites used, model, warnings, time."""
     info = dm.info
     lines = [
         f"taxa      {aln.n_taxa}",
         f"sites     {aln.n_sites} ({aln.n_patterns} distinct patterns, {info['sites_used']} used, gaps {info['gaps']})",
-        f"model     {info['model']}" + (f" + gamma (alpha {info['gamma']:g})" if info["gamma"] else ""),
+        model_line(info),
     ]
     lines.extend(warning_lines(shown_warnings(info, aln)))
     lines.extend(identical_lines(info))
@@ -63,8 +72,7 @@ def tree_summary(aln: Alignment | None, dm: DistanceMatrix, info: Mapping[str, A
     if aln is not None:
         lines.append(f"taxa      {aln.n_taxa}")
         lines.append(f"sites     {aln.n_sites} ({aln.n_patterns} distinct patterns, gaps {info.get('gaps')})")
-        model = info.get("model", "")
-        lines.append(f"model     {model}" + (f" + gamma (alpha {info['gamma']:g})" if info.get("gamma") else ""))
+        lines.append(model_line(info))
     else:
         lines.append(f"taxa      {len(dm.names)} (distance matrix)")
     lines.append(f"method    {info['method']}" + (f", refined by {info['refine']}" if info.get("refine") not in
