@@ -92,5 +92,5 @@ ClusterRoot = Literal["auto", "stored", "midpoint"]
 CLUSTER_ROOTS: Final[tuple[ClusterRoot, ...]] = get_args(ClusterRoot)
 
 #: Kinds of the warnings a run reports (:class:`cladewright.errors.CladewrightWarning`).
-WarningKind = Literal["saturated", "replicates_capped", "negative_lengths", "little_data"]
+WarningKind = Literal["saturated", "rates_fallback", "replicates_capped", "negative_lengths", "little_data"]
 WARNING_KINDS: Final[tuple[WarningKind, ...]] = get_args(WarningKind)

@@ -206,7 +206,7 @@ def run_warnings(info: dict[str, Any], alignment: Alignment | None = None) -> li
     info : dict
         The facts of a run, as :func:`tree_from_alignment`, :func:`cladewright.bootstrap`
         or :func:`cladewright.build_tree_with_info` (with the distance matrix's ``info``)
-        return them: ``saturated``, ``cap``, ``saturated_pairs``, ``replicates_capped``,
+        return them: ``saturated``, ``cap``, ``saturated_pairs``, ``rates_fallback``, ``replicates_capped``,
         ``replicates``, ``negative_branches``, ``negative``. Absent facts give no warning.
     alignment : Alignment, optional
         Sequences with unambiguous states at fewer than :data:`LITTLE_DATA` of its
@@ -235,6 +235,11 @@ def run_warnings(info: dict[str, Any], alignment: Alignment | None = None) -> li
         found.append(CladewrightWarning("saturated", f"{saturated} saturated pair(s): distance undefined under "
                                         "the model" + (f", set to {cap:.6g}" if cap is not None else "")
                                         + (f" ({shown})" if shown else "")))
+    if info.get("rates_fallback"):
+        found.append(CladewrightWarning("rates_fallback", f"the {info.get('model', 'model')} rates could not be "
+                                        "estimated from this alignment (the logarithm of its pooled divergence "
+                                        "matrix is undefined: the sequences are too far apart); equal rates were "
+                                        "used"))
     capped = info.get("replicates_capped") or 0
     if capped:
         found.append(CladewrightWarning("replicates_capped", f"{capped} of {info.get('replicates')} bootstrap "

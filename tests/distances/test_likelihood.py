@@ -491,3 +491,24 @@ def test_command_line_default_model_follows_the_alphabet(tmp_path):
     helped = runner.invoke(main, ["distances", "--help"]).output
     for name, paper in (("lg", "Le & Gascuel 2008"), ("gtr", "Tavaré 1986"), ("dcmut", "Kosiol & Goldman 2005")):
         assert any(line.split()[:1] == [name] and paper in line for line in helped.splitlines())
+
+
+def test_rates_that_cannot_be_estimated_are_a_warning_not_a_silent_change(tmp_path):
+    # Waddell & Steel (1997): the rates come from the logarithm of the pooled divergence matrix, undefined when
+    # the sequences are unrelated (the matrix is then near pi pi^T, of rank one: a fact of linear algebra). The
+    # equal rates used instead must be said, in the library's records and once in the summary.
+    from cladewright.pipeline import run_warnings
+
+    rng = np.random.default_rng(1)
+    names = [f"s{i}" for i in range(6)]
+    seqs = ["".join(rng.choice(list("ACGT"), 300)) for _ in names]
+    dm = distance_matrix(make_alignment(names, seqs, "dna"), "gtr", saturated="cap")
+    assert dm.info["rates_fallback"] is True
+    kinds = [w.kind for w in run_warnings(dm.info)]
+    assert "rates_fallback" in kinds
+    fasta = tmp_path / "far.fasta"
+    fasta.write_text("".join(f">{a}\n{s}\n" for a, s in zip(names, seqs)))
+    r = CliRunner().invoke(main, ["distances", str(fasta), "-o", str(tmp_path / "d.tsv"), "-m", "gtr",
+                                  "--saturated", "cap"])
+    assert r.exit_code == 0, r.output
+    assert r.stderr.count("rates could not be estimated") == 1
