@@ -54,6 +54,10 @@ from .draw import render_tree, tree_figure
 from .report import write_report
 from .textdraw import text_tree
 
+# Hand-off to other Python libraries (scikit-bio, DendroPy, Bio.Phylo, ete3), each imported when called.
+from .interop import (from_biophylo, from_dendropy, from_ete3, from_skbio_matrix, from_skbio_tree, to_biophylo,
+                      to_dendropy, to_ete3, to_skbio_matrix, to_skbio_tree)
+
 # Errors and warnings.
 from .errors import CladewrightError, CladewrightWarning, InputError, SaturationError
 
@@ -80,6 +84,9 @@ __all__ = [
     "robinson_foulds", "branch_score",
     # figures and reports
     "render_tree", "tree_figure", "text_tree", "write_report",
+    # hand-off to other libraries
+    "to_skbio_tree", "from_skbio_tree", "to_skbio_matrix", "from_skbio_matrix", "to_dendropy", "from_dendropy",
+    "to_biophylo", "from_biophylo", "to_ete3", "from_ete3",
     # errors and warnings
     "CladewrightError", "InputError", "SaturationError", "CladewrightWarning",
     "__version__",

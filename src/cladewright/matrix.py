@@ -8,6 +8,7 @@ are written with ``repr`` precision so that a matrix round-trips exactly.
 from __future__ import annotations
 
 import os
+from html import escape
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from typing import Any, cast
 
@@ -18,7 +19,10 @@ from .errors import InputError
 from .io.matrix_tsv import format_distance_tsv
 from .io.output import write_text_atomic
 
-__all__ = ["DistanceMatrix", "check_distance_matrix", "as_float_dtype"]
+__all__ = ["DistanceMatrix", "check_distance_matrix", "as_float_dtype", "HTML_MAX_TAXA"]
+
+#: Rows and columns a notebook shows of a matrix (DistanceMatrix._repr_html_).
+HTML_MAX_TAXA = 20
 
 
 class DistanceMatrix:
@@ -142,6 +146,71 @@ class DistanceMatrix:
         """Write the labelled TSV to ``path`` (atomically: a temporary file in
         the same folder, renamed into place when complete)."""
         write_text_atomic(path, self.to_tsv())
+
+    def condensed(self) -> NDArray[np.floating]:
+        """The distances above the diagonal, row by row, as one vector: the
+        condensed form of ``scipy.spatial.distance.squareform`` and
+        ``scipy.cluster.hierarchy.linkage``.
+
+        Returns
+        -------
+        ndarray, shape (n * (n - 1) // 2,)
+            A new array of the matrix's dtype: ``d(0,1), d(0,2), ...,
+            d(0,n-1), d(1,2), ...``.
+
+        Examples
+        --------
+        >>> DistanceMatrix(["a", "b", "c"], [[0, 1, 2], [1, 0, 3], [2, 3, 0]]).condensed()
+        array([1., 2., 3.])
+        """
+        v = self._values
+        n = v.shape[0]
+        out = np.empty(n * (n - 1) // 2, dtype=v.dtype)
+        start = 0
+        for i in range(n - 1):  # one slice per row: no index arrays as large as the output
+            out[start:start + n - 1 - i] = v[i, i + 1:]
+            start += n - 1 - i
+        return out
+
+    def to_pandas(self) -> Any:
+        """The matrix as a ``pandas.DataFrame`` (a copy) with the taxon names
+        as its index and columns.
+
+        Returns
+        -------
+        pandas.DataFrame
+
+        Raises
+        ------
+        InputError
+            When pandas is not installed, naming the package to install.
+
+        Examples
+        --------
+        >>> DistanceMatrix(["a", "b"], [[0, 0.5], [0.5, 0]]).to_pandas().loc["a", "b"]
+        np.float64(0.5)
+        """
+        try:
+            import pandas
+        except ModuleNotFoundError:
+            raise InputError("DistanceMatrix.to_pandas needs the pandas package; install it "
+                             "(pip install pandas)") from None
+        return pandas.DataFrame(np.array(self._values), index=list(self._names), columns=list(self._names))
+
+    def _repr_html_(self) -> str:
+        """A small HTML table of the matrix for notebooks: the first
+        :data:`HTML_MAX_TAXA` rows and columns, with a note when there are
+        more; names HTML-escaped."""
+        n = len(self._names)
+        k = min(n, HTML_MAX_TAXA)
+        names = [escape(x) for x in self._names[:k]]
+        cells = np.asarray(self._values[:k, :k], dtype=np.float64).tolist()
+        head = "".join(f"<th>{x}</th>" for x in names)
+        rows = ["<tr><th></th>" + head + "</tr>"]
+        for name, row in zip(names, cells):
+            rows.append(f"<tr><th>{name}</th>" + "".join(f"<td>{x:.6g}</td>" for x in row) + "</tr>")
+        note = f"{n} taxa" + (f", showing the first {k}" if k < n else "")
+        return (f"<table>\n<caption>DistanceMatrix: {note}</caption>\n" + "\n".join(rows) + "\n</table>")
 
 
 def _unpickle(names: tuple[str, ...], values: NDArray[np.floating], info: dict[str, Any]) -> DistanceMatrix:

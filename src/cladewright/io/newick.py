@@ -4,7 +4,12 @@ Reading trees in Newick format into plain arrays.
 
 Reading follows the Newick format (the trade's de facto standard, 1986
 informal specification): labels may be quoted with ``'...'`` (``''`` for an
-inner quote); an unquoted label has its underscores read as spaces; comments
+inner quote); in a Newick text an unquoted label is kept as written,
+underscores included (that specification reads an unquoted ``_`` as a blank,
+but most software today keeps it, and cladewright's writer leaves such labels
+bare: common practice; a quoted label is exact under either rule), while in a
+NEXUS TREE command an unquoted ``_`` is a blank, as NEXUS defines it
+(Maddison, Swofford & Maddison 1997); comments
 in square brackets are skipped, except that ``[&R]`` / ``[&U]`` before a tree
 says whether it is rooted. A numeric internal label is read as a support
 value (its text kept beside it, so that support a tool did not compute is
@@ -139,7 +144,7 @@ def parse_newick_records(text: str, source: str | None = None) -> list[TreeRecor
     ----------
     Newick format: the trade's de facto standard (1986 informal specification).
     """
-    records = parse_tree_span(text, 0, len(text), source)
+    records = parse_tree_span(text, 0, len(text), source, blank_underscores=False)
     if not records:
         raise InputError("no tree found (the text is empty); give at least one tree ending in ';'",
                          source=source)
@@ -147,7 +152,7 @@ def parse_newick_records(text: str, source: str | None = None) -> list[TreeRecor
 
 
 def parse_tree_span(text: str, start: int, end: int, source: str | None = None,
-                    expect_one: bool = False) -> list[TreeRecord]:
+                    expect_one: bool = False, blank_underscores: bool = True) -> list[TreeRecord]:
     """The trees of ``text[start:end]`` as plain values; positions in errors
     refer to ``text`` (a NEXUS TREE command is such a span).
 
@@ -160,6 +165,10 @@ def parse_tree_span(text: str, start: int, end: int, source: str | None = None,
         File name used in error messages.
     expect_one : bool
         Refuse text after the first tree.
+    blank_underscores : bool
+        Read an unquoted ``_`` as a blank: the rule of NEXUS (Maddison,
+        Swofford & Maddison 1997) and of the 1986 Newick specification.
+        :func:`parse_newick_records` reads Newick text with False (kept).
 
     Returns
     -------
@@ -213,8 +222,8 @@ def parse_tree_span(text: str, start: int, end: int, source: str | None = None,
         if kind == "quoted" or kind == "word":
             if kind == "quoted":
                 label = tok[1:-1].replace("''", "'")
-            else:
-                label = tok.replace("_", " ")
+            else:  # see the module docstring on underscores
+                label = tok.replace("_", " ") if blank_underscores else tok
             if state <= 1:
                 if trees and expect_one and state == 0:
                     fail(pos, "text after the end of the tree; a TREE command holds one tree")

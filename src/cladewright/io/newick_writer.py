@@ -8,6 +8,21 @@ writer takes any tree object with the attributes of
 :class:`~cladewright.tree.Tree` (it imports no tree class) and walks it
 without recursion.
 
+Underscores. The 1986 informal specification reads an unquoted ``_`` as a
+blank, but most software today keeps it as an underscore (common practice),
+and some readers keep the quotes of a quoted label as part of the name. So
+two ways of quoting are offered (:data:`QUOTINGS`):
+
+- ``"plain"`` (the default): a label that would need quotes only because of
+  an underscore is written bare (``Homo_sapiens``); blanks, punctuation,
+  quotes and non-ASCII are still quoted. cladewright's own reader keeps an
+  unquoted underscore, so its own files read back exactly.
+- ``"strict"``: every label a reader of the strict rule would change is
+  quoted, underscores included (``'Homo_sapiens'``).
+
+A NEXUS TREE command is always written strictly: NEXUS reads an unquoted
+``_`` as a blank (Maddison, Swofford & Maddison 1997).
+
 References
 ----------
 Newick format: the trade's de facto standard (1986 informal specification).
@@ -22,9 +37,14 @@ from typing import Protocol
 import numpy as np
 from numpy.typing import NDArray
 
+from ..errors import InputError
 from .newick import read_number
 
-__all__ = ["TreeLike", "format_newick", "quote_label", "format_length", "format_support"]
+__all__ = ["TreeLike", "QUOTINGS", "format_newick", "quote_label", "check_quoting", "format_length", "format_support"]
+
+#: The ways of quoting labels: "plain" writes a label whose only special
+#: character is '_' bare, "strict" quotes it too.
+QUOTINGS = ("plain", "strict")
 
 
 class TreeLike(Protocol):
@@ -66,12 +86,36 @@ class TreeLike(Protocol):
 
     def preorder(self) -> NDArray[np.int64]: ...
 
-# Characters that cannot stand in an unquoted label (whitespace is tested
-# separately); '_' is here because a reader turns it into a space.
-_NEEDS_QUOTES = re.compile(r"[\s()\[\]':;,_]|[^\x21-\x7e]")
+# Characters that cannot stand in an unquoted label: whitespace, Newick
+# punctuation, the quote and anything outside printable ASCII; the strict
+# rule adds '_', which a reader of that rule turns into a blank.
+_NEEDS_QUOTES = {"plain": re.compile(r"[\s()\[\]':;,]|[^\x21-\x7e]"),
+                 "strict": re.compile(r"[\s()\[\]':;,_]|[^\x21-\x7e]")}
 
 
-def quote_label(label: str, numeric_quoted: bool = False) -> str:
+def check_quoting(quoting: str) -> str:
+    """``quoting`` if it is one of :data:`QUOTINGS`, else InputError.
+
+    Parameters
+    ----------
+    quoting : str
+
+    Returns
+    -------
+    str
+
+    Raises
+    ------
+    InputError
+        Naming the parameter and the values it takes.
+    """
+    if quoting not in _NEEDS_QUOTES:
+        raise InputError(f"quoting={quoting!r} is not a way of quoting Newick labels; give 'plain' "
+                         "(underscores bare, the default) or 'strict' (underscores quoted)")
+    return quoting
+
+
+def quote_label(label: str, numeric_quoted: bool = False, quoting: str = "plain") -> str:
     """``label`` as a Newick token: bare if it reads back unchanged, else in
     single quotes with inner quotes doubled.
 
@@ -81,8 +125,28 @@ def quote_label(label: str, numeric_quoted: bool = False) -> str:
     numeric_quoted : bool
         Quote a label that looks like a number (internal labels, which a
         reader would take as support).
+    quoting : {"plain", "strict"}
+        ``"plain"`` writes a label whose only special character is ``_``
+        bare; ``"strict"`` quotes it (an unquoted ``_`` reads as a blank
+        under the 1986 informal specification).
+
+    Returns
+    -------
+    str
+
+    References
+    ----------
+    Newick format: the trade's de facto standard (1986 informal specification).
+
+    Examples
+    --------
+    >>> quote_label("Homo_sapiens"), quote_label("Homo_sapiens", quoting="strict")
+    ('Homo_sapiens', "'Homo_sapiens'")
+    >>> quote_label("it's here")
+    "'it''s here'"
     """
-    if not label or _NEEDS_QUOTES.search(label) or (numeric_quoted and read_number(label) is not None):
+    pattern = _NEEDS_QUOTES[check_quoting(quoting)]
+    if not label or pattern.search(label) or (numeric_quoted and read_number(label) is not None):
         return "'" + label.replace("'", "''") + "'"
     return label
 
@@ -117,7 +181,7 @@ def _kept_text(tree: TreeLike) -> list[str | None]:
 
 
 def _node_texts(tree: TreeLike, digits: int | None, support_digits: int,
-                leaf_text: Sequence[str] | None = None) -> list[str]:
+                leaf_text: Sequence[str] | None = None, quoting: str = "plain") -> list[str]:
     """Text after each node's subtree: its label or support and ':length'."""
     n, m = tree.n_leaves, tree.n_nodes
     length, support, labels = tree.length.tolist(), tree.support.tolist(), tree.labels
@@ -127,11 +191,11 @@ def _node_texts(tree: TreeLike, digits: int | None, support_digits: int,
     out = [""] * m
     for v in range(m):
         if v < n:
-            s = quote_label(names[v]) if leaf_text is None else names[v]
+            s = quote_label(names[v], quoting=quoting) if leaf_text is None else names[v]
         elif v != root and support[v] == support[v]:
             s = kept[v] or format_support(support[v], support_digits)
         elif (label := labels[v]) is not None:
-            s = quote_label(label, numeric_quoted=True)
+            s = quote_label(label, numeric_quoted=True, quoting=quoting)
         else:
             s = ""
         x = length[v]
@@ -165,7 +229,8 @@ def _child_table(tree: TreeLike) -> tuple[list[int], list[int]]:
 
 
 def format_newick(tree: TreeLike, digits: int | None = None, support_digits: int = 0,
-                  leaf_text: Sequence[str] | None = None, root_comment: str | None = None) -> str:
+                  leaf_text: Sequence[str] | None = None, root_comment: str | None = None,
+                  quoting: str | None = None) -> str:
     """One tree as a Newick line ending in ``";\\n"``.
 
     Parameters
@@ -183,16 +248,41 @@ def format_newick(tree: TreeLike, digits: int | None = None, support_digits: int
     root_comment : str, optional
         Text written before the tree; default ``[&R]``/``[&U]`` only when
         the shape alone would mislead a reader about the rooting.
+    quoting : {"plain", "strict"}, optional
+        ``"plain"`` writes labels whose only special character is ``_``
+        bare, as most software expects; ``"strict"`` quotes them too, for
+        readers that turn an unquoted ``_`` into a blank. Labels with
+        blanks, punctuation, quotes or non-ASCII are quoted either way.
+        Default ``"plain"``, but ``"strict"`` when ``leaf_text`` is given:
+        that is a NEXUS TREE command, where an unquoted ``_`` is a blank
+        (Maddison, Swofford & Maddison 1997).
 
     Returns
     -------
     str
 
+    Raises
+    ------
+    InputError
+        For an unknown ``quoting``.
+
     References
     ----------
     Newick format: the trade's de facto standard (1986 informal specification).
+    Maddison, Swofford & Maddison (1997) Syst. Biol. 46:590-621 (NEXUS).
+
+    Examples
+    --------
+    >>> from cladewright import Tree
+    >>> t = Tree([3, 3, 3, -1], [1.0, 2.0, 3.0, float("nan")], ["Homo_sapiens", "Pan paniscus", "x"])
+    >>> format_newick(t)
+    "(Homo_sapiens:1.0,'Pan paniscus':2.0,x:3.0);\\n"
+    >>> format_newick(t, quoting="strict")
+    "('Homo_sapiens':1.0,'Pan paniscus':2.0,x:3.0);\\n"
     """
-    texts = _node_texts(tree, digits, support_digits, leaf_text)
+    if quoting is None:
+        quoting = "plain" if leaf_text is None else "strict"
+    texts = _node_texts(tree, digits, support_digits, leaf_text, check_quoting(quoting))
     n = tree.n_leaves
     ptr, kids = _child_table(tree)
     first = [True] * tree.n_nodes

@@ -263,8 +263,9 @@ def format_nexus(trees: TreeLike | Iterable[TreeLike], digits: int | None = None
     lines.append("    ;")
     for t, name in zip(trees, tree_names):
         tokens = [str(index[x]) for x in t.leaf_names]
+        # strict quoting: in a NEXUS TREE command an unquoted '_' is a blank (Maddison et al. 1997)
         newick = format_newick(t, digits=digits, support_digits=support_digits, leaf_text=tokens,
-                               root_comment="[&R] " if t.rooted else "[&U] ")
+                               root_comment="[&R] " if t.rooted else "[&U] ", quoting="strict")
         lines.append(f"    TREE {quote_nexus(name)} = {newick.rstrip()}")
     lines += ["END;", ""]
     return "\n".join(lines)

@@ -22,7 +22,6 @@ Newick format: the trade's de facto standard (1986 informal specification).
 
 from __future__ import annotations
 
-import math
 import os
 from collections.abc import Iterable
 from typing import Any
@@ -34,6 +33,9 @@ from ..io.newick_writer import format_newick
 from ..io.nexus import format_nexus
 from ..io.output import atomic_output
 from ._layout import children_csr, leaf_intervals, split_bitsets, walk_preorder
+from .ete_form import tree_to_ete3
+from .linkage_form import linkage_matrix
+from .svg import NOTEBOOK_MAX_LEAVES, tree_svg
 
 __all__ = ["Tree"]
 
@@ -351,7 +353,7 @@ class Tree:
         return new
 
     # ---- output -----------------------------------------------------------
-    def to_newick(self, digits: int | None = None, support_digits: int = 0) -> str:
+    def to_newick(self, digits: int | None = None, support_digits: int = 0, quoting: str = "plain") -> str:
         """The tree as one line of Newick text ending in ``";\\n"``.
 
         Parameters
@@ -361,12 +363,15 @@ class Tree:
             that reads back to the same float.
         support_digits : int
             Decimals of support values (0: integer percentages).
+        quoting : {"plain", "strict"}
+            ``"plain"``: names whose only special character is ``_`` bare;
+            ``"strict"``: those quoted too (:func:`~cladewright.io.newick_writer.format_newick`).
 
         References
         ----------
         Newick format: the trade's de facto standard (1986 informal specification).
         """
-        return format_newick(self, digits=digits, support_digits=support_digits)
+        return format_newick(self, digits=digits, support_digits=support_digits, quoting=quoting)
 
     def write(self, path: str | os.PathLike[str], format: str = "newick", **options: Any) -> None:
         """Write the tree to ``path`` (``-`` for standard output) atomically.
@@ -376,7 +381,7 @@ class Tree:
         path : str or os.PathLike
         format : {"newick", "nexus"}
         **options
-            ``digits``, ``support_digits`` (and ``tree_names`` for NEXUS).
+            ``digits``, ``support_digits`` (and ``quoting`` for Newick, ``tree_names`` for NEXUS).
         """
         if format == "newick":
             text = format_newick(self, **options)
@@ -388,28 +393,14 @@ class Tree:
             fh.write(text)
 
     def to_ete3(self) -> Any:
-        """The tree as an ``ete3.Tree`` (names, lengths, support kept; a
-        missing length becomes 0.0, a missing support stays at ete3's
-        default)."""
-        import ete3
-        n = self.n_leaves
-        length, support, labels = self._length, self._support, self._labels
-        made = [None] * self.n_nodes
-        root = ete3.Tree()
-        made[self._root] = root
-        parent = self._parent.tolist()
-        for v in self._pre.tolist():
-            if v == self._root:
-                node = root
-            else:
-                node = made[parent[v]].add_child()
-                made[v] = node
-                node.dist = 0.0 if math.isnan(length[v]) else float(length[v])
-            if v < n:
-                node.name = self._leaf_names[v]
-            else:
-                if labels[v] is not None:
-                    node.name = labels[v]
-                if not math.isnan(support[v]):
-                    node.support = float(support[v])
-        return root
+        """The tree as an ``ete3.Tree`` (:func:`cladewright.tree.ete_form.tree_to_ete3`)."""
+        return tree_to_ete3(self)
+
+    def to_linkage(self, tolerance: float = 1e-6) -> NDArray[np.float64]:
+        """scipy's linkage matrix of this rooted, ultrametric, binary tree (UPGMA or WPGMA output), for
+        ``scipy.cluster.hierarchy`` (:func:`cladewright.tree.linkage_form.linkage_matrix`)."""
+        return linkage_matrix(self, tolerance)
+
+    def _repr_svg_(self) -> str | None:
+        """The tree as a small SVG picture for notebooks (:func:`cladewright.tree.svg.tree_svg`)."""
+        return tree_svg(self, max_leaves=NOTEBOOK_MAX_LEAVES)
