@@ -21,7 +21,13 @@ from numpy.typing import NDArray
 if TYPE_CHECKING:
     from .tree import Tree
 
-__all__ = ["text_tree", "child_lists", "tree_layout", "nice_length"]
+__all__ = ["text_tree", "child_lists", "tree_layout", "nice_length", "support_labels", "UNROOTED_NOTE",
+           "DEFAULT_UNIT"]
+
+#: The note under a drawing of an unrooted tree (the figure and the text drawing say the same).
+UNROOTED_NOTE = "unrooted tree: drawn from an arbitrary node"
+#: The scale bar's unit when none is given: a tree file does not say what its branch lengths measure.
+DEFAULT_UNIT = "branch length"
 
 _BOX = {"h": "─", "v": "│", "first": "┌", "last": "└", "mid": "├", "node": "┤",
         "node_first": "┬", "node_last": "┴", "node_mid": "┼", "root": "─"}
@@ -120,6 +126,72 @@ def _support_text(value: float) -> str:
     return str(int(r)) if abs(value - r) < 0.05 else f"{value:.1f}"
 
 
+def _percent_from_text(text: str) -> str | None:
+    """A proportion written as a plain decimal (``0.9987``) as the percentage with the
+    file's digits (``99.87``); None for any other spelling (exponents, signs)."""
+    whole, dot, frac = text.strip().partition(".")
+    if not whole.isdigit() and not (whole == "" and frac):
+        return None
+    if dot and not frac.isdigit():
+        return None
+    digits = (whole or "0") + frac.ljust(2, "0")
+    cut = len(digits) - max(len(frac) - 2, 0)
+    head, tail = digits[:cut].lstrip("0") or "0", digits[cut:]
+    return head + ("." + tail if tail else "")
+
+
+def support_labels(tree: Tree, ladderize: bool = True) -> list[str]:
+    """The support label of every node, as a drawing shows it ("" where none).
+
+    Percentages (support read on a 0-1 scale is multiplied by 100, see
+    :meth:`cladewright.tree.Tree.support_percent`). Support read from a file
+    is written with the file's own digits (:attr:`cladewright.tree.Tree.support_text`):
+    ``95.0`` stays ``95.0``, and a proportion ``0.9987`` becomes ``99.87``.
+    The root carries no label (it is on no branch), and at a root of degree 2,
+    whose two branches are one split, only the lower branch is drawn labelled.
+
+    Parameters
+    ----------
+    tree : Tree
+    ladderize : bool
+        The drawing's child order (:func:`child_lists`), which says which
+        branch at a degree-2 root is the lower one.
+
+    Returns
+    -------
+    list of str, length m
+
+    Example
+    -------
+    >>> from cladewright.io.readers import parse_newick
+    >>> [x for x in support_labels(parse_newick("((a,b)0.950:1,c,d);")[0]) if x]
+    ['95.0']
+    """
+    n, m = tree.n_leaves, tree.n_nodes
+    percent, proportions = tree.support_percent()
+    raw = np.asarray(tree.support, dtype=np.float64)
+    text = tree.support_text
+    labels = [""] * m
+    for v in range(n, m):
+        if v == tree.root:
+            continue
+        label = _support_text(float(percent[v]))
+        written = text[v] if text is not None else None
+        if label and written is not None:
+            try:
+                same = float(written) == float(raw[v])  # the text still reads as this node's value
+            except ValueError:
+                same = False
+            if same:
+                label = (_percent_from_text(written) or label) if proportions else written.strip()
+        labels[v] = label
+    kids = child_lists(tree, ladderize)[tree.root]
+    if len(kids) == 2 and labels[kids[0]] and labels[kids[0]] == labels[kids[1]]:
+        # The two branches at a degree-2 root are one split: label one of them only.
+        labels[kids[0]] = ""
+    return labels
+
+
 def _columns(root: int, kids: list[list[int]], x: list[float], scale: float, labels: list[str], m: int, *,
              stretch: bool) -> tuple[list[int], list[int], bool]:
     """Column of every node: to scale; with ``stretch`` every branch at least
@@ -143,7 +215,7 @@ def _columns(root: int, kids: list[list[int]], x: list[float], scale: float, lab
 
 
 def text_tree(tree: Tree, width: int | None = None, *, ascii: bool = False, ladderize: bool = True,
-              support: bool = True) -> str:
+              support: bool = True, unit: str | None = None) -> str:
     """The tree as text lines, to print on a terminal.
 
     Parameters
@@ -160,13 +232,19 @@ def text_tree(tree: Tree, width: int | None = None, *, ascii: bool = False, ladd
     support : bool
         Write support values on the branches above internal nodes, as
         percentages (support read on a 0-1 scale is multiplied by 100, see
-        :meth:`cladewright.tree.Tree.support_percent`).
+        :meth:`cladewright.tree.Tree.support_percent`), with the tree
+        file's digits (:func:`support_labels`).
+    unit : str, optional
+        What the branch lengths measure, named after the scale bar's length
+        (``"substitutions per site"``; :func:`cladewright.draw.scale_unit`
+        words it from a model's name); default :data:`DEFAULT_UNIT`.
 
     Returns
     -------
     str
         Lines ending in ``"\\n"``: one per leaf, then a scale bar when the
-        tree has branch lengths (or a note that it is a cladogram).
+        tree has branch lengths (or a note that it is a cladogram), then for
+        an unrooted tree the note :data:`UNROOTED_NOTE`.
 
     References
     ----------
@@ -176,7 +254,7 @@ def text_tree(tree: Tree, width: int | None = None, *, ascii: bool = False, ladd
     -------
     >>> from cladewright.tree import Tree
     >>> t = Tree([3, 3, 4, 4, -1], [1.0, 1.0, 2.0, 1.0, np.nan], list("abc"), rooted=True)
-    >>> print(text_tree(t, width=12, ascii=True), end="")
+    >>> print(text_tree(t, width=12, ascii=True, unit="substitutions per site"), end="")
     -+---------- c
      +----+----- a
           +----- b
@@ -186,17 +264,9 @@ def text_tree(tree: Tree, width: int | None = None, *, ascii: bool = False, ladd
     n, m = tree.n_leaves, tree.n_nodes
     x, y, kids, rows, has_lengths = tree_layout(tree, ladderize)
     names = tree.leaf_names
-    sup = tree.support_percent()[0].tolist()
     root = tree.root
-    labels = [""] * m
-    if support:
-        for v in range(n, m):
-            if v != root:
-                labels[v] = _support_text(sup[v])
-        root_kids = kids[root]
-        if len(root_kids) == 2 and labels[root_kids[0]] and labels[root_kids[0]] == labels[root_kids[1]]:
-            # The two branches at a degree-2 root are one split: label the lower one only.
-            labels[root_kids[0]] = ""
+    labels = support_labels(tree, ladderize) if support else [""] * m
+    unit = DEFAULT_UNIT if unit is None else str(unit).strip() or DEFAULT_UNIT
     if width is None:
         cols = shutil.get_terminal_size((100, 24)).columns
         longest = max(len(s) for s in names)
@@ -259,9 +329,11 @@ def text_tree(tree: Tree, width: int | None = None, *, ascii: bool = False, ladd
         cols_bar = max(2, int(round(bar * scale)))
         ends = ("|", "|") if ascii else ("├", "┤")
         # the bar's end marks stand on the columns cols_bar apart
-        lines.append(" " + ends[0] + ch["h"] * (cols_bar - 1) + ends[1] + f" {bar:g} substitutions per site"
+        lines.append(" " + ends[0] + ch["h"] * (cols_bar - 1) + ends[1] + f" {bar:g} {unit}"
                      + (" (some branches stretched to fit their support value)" if stretched else "")
                      + (" (too deep to show every branch: short branches merged)" if merged else ""))
     elif not has_lengths:
         lines.append("no branch lengths: drawn as a cladogram")
+    if not tree.rooted:
+        lines.append(UNROOTED_NOTE)
     return "\n".join(lines) + "\n"
