@@ -219,7 +219,7 @@ def _ours_bootstrap_process(n, replicates, workers):
     for f in (out, CACHE / f"ours_{n}.reps.nwk", CACHE / f"ours_{n}.reps.nwk.run.json"):
         f.unlink(missing_ok=True)
     seconds = _wall([sys.executable, "-m", "cladewright.cli", "--quiet", "tree", str(_fasta_for(n)), "-o", str(out),
-                     "-b", str(replicates), "--seed", "1", "--workers", str(workers),
+                     "--replicates", str(replicates), "--seed", "1", "--workers", str(workers),
                      "--save-replicates", str(CACHE / f"ours_{n}.reps.nwk")])
     return seconds
 

@@ -78,17 +78,18 @@ def make():
         shutil.copy(DATA / "glass_snails_coi.true.nwk", "glass_snails_coi.true.nwk")
         cw.build_tree(cw.distance_matrix(aln, "k2p"), "upgma").write("glass_snails_coi.upgma.nwk")
 
-        _, err = run("root", "glass_snails_coi.nwk", "-o", "rooted.nwk", "--midpoint")
-        blocks["root"] = block("cladewright root glass_snails_coi.nwk -o rooted.nwk --midpoint", err)
+        _, err = run("root", "glass_snails_coi.nwk", "-o", "rooted.nwk", "--root", "midpoint")
+        blocks["root"] = block("cladewright root glass_snails_coi.nwk -o rooted.nwk --root midpoint", err)
         run("draw", "rooted.nwk", "-o", IMG / "root.svg", "--title", "rooted at the midpoint")
 
-        out, _ = run("compare", "glass_snails_coi.nwk", "glass_snails_coi.true.nwk")
-        blocks["compare"] = block("cladewright compare glass_snails_coi.nwk glass_snails_coi.true.nwk", out)
+        # the table on stdout, then the summary's output line on stderr, as a terminal shows them
+        out, err = run("compare", "glass_snails_coi.nwk", "glass_snails_coi.true.nwk")
+        blocks["compare"] = block("cladewright compare glass_snails_coi.nwk glass_snails_coi.true.nwk", out + err)
         trees = ("glass_snails_coi.nwk", "glass_snails_coi.true.nwk", "glass_snails_coi.upgma.nwk")
-        out, _ = run("compare", *trees)
-        blocks["compare-many"] = block("cladewright compare " + " ".join(trees), out)
-        out, _ = run("compare", "--tsv", *trees[:2])
-        blocks["compare-tsv"] = block("cladewright compare --tsv " + " ".join(trees[:2]), out)
+        out, err = run("compare", *trees)
+        blocks["compare-many"] = block("cladewright compare " + " ".join(trees), out + err)
+        out, err = run("compare", "--tsv", *trees[:2])
+        blocks["compare-tsv"] = block("cladewright compare --tsv " + " ".join(trees[:2]), out + err)
 
         _, err = run("clusters", "glass_snails_coi.nwk", "--within", CLUSTER_D, "-o", "groups.tsv")
         head = "".join(Path("groups.tsv").read_text().splitlines(keepends=True)[:8])

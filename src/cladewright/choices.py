@@ -22,7 +22,7 @@ import numpy as np
 
 __all__ = ["CRITERIA", "LENGTH_CRITERIA", "Criterion", "LengthCriterion", "INSERTION_METHODS", "REFINEMENTS",
            "LINKAGE_METHODS", "JOINING_METHODS", "METHODS", "NEGATIVE_RULES", "PRECISIONS", "ALPHABETS",
-           "GAP_MODES", "FREQ_MODES", "SATURATED_MODES", "SUPPORT_MEASURES", "TREE_FORMATS", "CLUSTER_ROOTS",
+           "GAP_MODES", "FREQ_MODES", "SATURATED_MODES", "SUPPORT_MEASURES", "SUPPORT_WORDS", "TREE_FORMATS", "CLUSTER_ROOTS",
            "WARNING_KINDS",
            "LinkageMethod", "JoiningMethod", "InsertionMethod", "Method", "Refinement", "NegativeRule", "Precision", "Alphabet", "GapMode",
            "FreqMode", "SaturatedMode", "SupportMeasure", "TreeFormat", "ClusterRoot", "WarningKind"]
@@ -82,6 +82,10 @@ SATURATED_MODES: Final[tuple[SaturatedMode, ...]] = get_args(SaturatedMode)
 #: Support measures (``support``): Felsenstein bootstrap proportion, transfer bootstrap expectation.
 SupportMeasure = Literal["fbp", "tbe"]
 SUPPORT_MEASURES: Final[tuple[SupportMeasure, ...]] = get_args(SupportMeasure)
+#: The command line's words for the support measures (``--support``), each with the library's
+#: spelling: ``proportion`` is the Felsenstein bootstrap proportion (FBP), ``transfer`` the
+#: transfer bootstrap expectation (TBE).
+SUPPORT_WORDS: Final[dict[str, SupportMeasure]] = {"proportion": "fbp", "transfer": "tbe"}
 
 #: Tree file formats (``format`` of Tree.write).
 TreeFormat = Literal["newick", "nexus"]

@@ -38,7 +38,7 @@ if TYPE_CHECKING:
     from .matrix import DistanceMatrix
     from .tree import Tree
 
-__all__ = ["write_report", "report_html", "CAUTION", "software_versions"]
+__all__ = ["write_report", "report_html", "CAUTION", "software_versions", "SETTING_WORDS"]
 
 #: The caution every report opens with (the README's, in short).
 CAUTION: str = ("A distance tree is exploratory evidence: a first look at the data. Where results may feed "
@@ -189,15 +189,63 @@ def _warnings(alignment: Alignment | None, dm: DistanceMatrix, info: Mapping[str
     return found
 
 
+#: The settings a library caller's ``info`` may hold, in the order shown, with the words shown
+#: (a caller on the command line passes its own settings, in its option words).
+SETTING_WORDS: tuple[tuple[str, str], ...] = (
+    ("method", "method"), ("refine", "topology search"), ("criterion", "criterion"),
+    ("model", "model"), ("gamma", "gamma shape"), ("gamma_categories", "gamma categories"), ("gaps", "gaps"),
+    ("freqs", "base frequencies"), ("negative", "negative lengths"), ("replicates", "replicates"),
+    ("seed", "seed"), ("support", "support measure"))
+
+
+def _library_settings(dm: DistanceMatrix, info: Mapping[str, Any]) -> list[tuple[str, object]]:
+    """The settings found in ``info`` (and ``dm.info``), in words, those not set left out."""
+    merged = {**dm.info, **info}
+    return [(word, merged[key]) for key, word in SETTING_WORDS if merged.get(key) not in (None, "")]
+
+
+def _run_rows(dm: DistanceMatrix, info: Mapping[str, Any]) -> list[tuple[str, object]]:
+    """What the run found on its way (not settings): sites used, capped distances, polytomies..."""
+    merged = {**dm.info, **info}
+    rows: list[tuple[str, object]] = []
+    if merged.get("sites_used") is not None:
+        rows.append(("sites used", merged["sites_used"]))
+    if merged.get("saturated"):
+        rows.append(("saturated distances", f"{merged['saturated']} pair(s)"
+                     + (f", capped at {merged['cap']:.6g}" if merged.get("cap") is not None else "")))
+    if merged.get("identical_groups"):
+        rows.append(("identical sequences", f"{merged['identical_sequences']} in {merged['identical_groups']} "
+                                            "group(s), each computed once"))
+    if merged.get("negative_branches"):
+        rows.append(("negative branch lengths", merged["negative_branches"]))
+    for key, word in (("resumed", "replicates resumed from the file"), ("replicates_capped",
+                                                                          "replicates with capped distances")):
+        if merged.get(key):
+            rows.append((word, merged[key]))
+    return rows
+
+
+def _as_written(tree: Tree, support_digits: int | None) -> Tree:
+    """The tree as its file holds it: support with the file's digits (``support_text``)."""
+    if support_digits is None:
+        return tree
+    from .io.readers import parse_newick
+
+    return parse_newick(tree.to_newick(support_digits=support_digits))[0]
+
+
 def report_html(*, alignment: Alignment | None = None, dm: DistanceMatrix, tree: Tree,
                 info: Mapping[str, Any] | None = None, command_line: str | Sequence[str] = "",
                 warnings: Iterable[str | CladewrightWarning] | None = None, support_values: ArrayLike | None = None,
-                highlight_below: float | None = 70.0, title: str = "cladewright report") -> str:
+                highlight_below: float | None = 70.0, title: str = "cladewright report",
+                settings: Sequence[tuple[str, object]] | None = None, support_digits: int | None = None,
+                groups: Mapping[str, str] | None = None, group_title: str | None = None) -> str:
     """The report as one HTML string (see :func:`write_report`)."""
-    from .draw import tree_figure
+    from .draw import scale_unit, tree_figure
     from .textdraw import tree_layout
 
     info = dict(info or {})
+    tree = _as_written(tree, support_digits)
     if not isinstance(command_line, str):
         command_line = shlex.join(str(x) for x in command_line)
     percent, proportions = tree.support_percent()
@@ -233,11 +281,13 @@ def report_html(*, alignment: Alignment | None = None, dm: DistanceMatrix, tree:
         rows.append(("input", "a distance matrix (no alignment)"))
     parts.append(f"<section id=\"input\"><h2>Input</h2>{_rows(rows)}</section>")
 
-    settings = [(k, v) for k, v in dm.info.items() if k not in ("saturated_pairs",)]
-    settings += [(k, v) for k, v in info.items()
-                 if k not in ("fit_name", "fit_value", "warnings") and k not in dm.info]
-    parts.append(f"<section id=\"settings\"><h2>Settings</h2>{_rows(settings)}"
-                 f"<p>Command line:</p><pre id=\"command-line\">{esc(command_line)}</pre></section>")
+    shown_settings = list(settings) if settings is not None else _library_settings(dm, info)
+    run_rows = _run_rows(dm, info)
+    rerun = ("<p>Run in:</p><pre id=\"directory\">" + esc(os.getcwd()) + "</pre>") if settings is not None else ""
+    parts.append(f"<section id=\"settings\"><h2>Settings</h2>{_rows(shown_settings)}"
+                 f"<p>Command line{' (every setting explicit; it re-runs this run exactly)' if settings else ''}:"
+                 f"</p><pre id=\"command-line\">{esc(command_line)}</pre>{rerun}"
+                 + (f"<p>What the run found:</p>{_rows(run_rows)}" if run_rows else "") + "</section>")
 
     if info.get("fit_name") and info.get("fit_value") is not None:
         fit = [(info["fit_name"], info["fit_value"])]
@@ -256,12 +306,19 @@ def report_html(*, alignment: Alignment | None = None, dm: DistanceMatrix, tree:
             fit.append((crit, f"{info['length_after']:.6g}"))
     x, y, kids, leaf_rows, _ = tree_layout(tree, True)
     order_names = [tree.leaf_names[i] for i in leaf_rows.tolist()]
-    tree_svg = _svg(tree_figure(tree, highlight_below=highlight_below), "cladewright-tree")
+    # the scale bar in the distances' unit: the model's, or the matrix's own when the run read one
+    unit = scale_unit(dm.info.get("model") or ("matrix" if alignment is None else None))
+    tree_svg = _svg(tree_figure(tree, highlight_below=highlight_below, unit=unit, groups=groups,
+                                group_title=group_title), "cladewright-tree")
     parts.append(f"<section id=\"tree\"><h2>Tree</h2>{_rows(fit)}<div class=\"fig\">{tree_svg}</div>"
                  f"<details><summary>Newick</summary><pre>{esc(tree.to_newick())}</pre></details></section>")
 
+    measure = ""
+    if info.get("support") and info.get("replicates"):
+        measure = (f"{info['support']} from {info['replicates']} bootstrap replicates"
+                   + (f", seed {info['seed']}" if info.get("seed") is not None else "") + ". ")
     if shown.size:
-        summary = f"{shown.size} internal branches; median {np.median(shown):.0f}%"
+        summary = f"{measure}{shown.size} internal branches; median {np.median(shown):.0f}%"
         if highlight_below is not None:
             low = int(np.count_nonzero(shown < highlight_below))
             summary += f"; {low} below {highlight_below:g}%"
@@ -293,7 +350,9 @@ def report_html(*, alignment: Alignment | None = None, dm: DistanceMatrix, tree:
 def write_report(path: str | os.PathLike[str], *, alignment: Alignment | None = None, dm: DistanceMatrix,
                  tree: Tree, info: Mapping[str, Any] | None = None, command_line: str | Sequence[str] = "",
                  warnings: Iterable[str | CladewrightWarning] | None = None, support_values: ArrayLike | None = None,
-                 highlight_below: float | None = 70.0, title: str = "cladewright report") -> None:
+                 highlight_below: float | None = 70.0, title: str = "cladewright report",
+                 settings: Sequence[tuple[str, object]] | None = None, support_digits: int | None = None,
+                 groups: Mapping[str, str] | None = None, group_title: str | None = None) -> None:
     """Write the HTML report of a run, atomically.
 
     Parameters
@@ -306,10 +365,22 @@ def write_report(path: str | os.PathLike[str], *, alignment: Alignment | None = 
     tree : Tree
         The final tree, with support.
     info : dict, optional
-        Settings and results of the run (method, replicates, seed,
-        ``fit_name``/``fit_value``, ``negative_branches``...), shown as given.
+        Settings and results of the run (method, replicates, seed, support,
+        ``fit_name``/``fit_value``, ``negative_branches``...). Without
+        ``settings``, the settings among them (:data:`SETTING_WORDS`) are
+        shown in words, those not set left out; what the run found (sites
+        used, capped distances, identical sequences) is shown apart.
     command_line : str or sequence of str
         The exact command line (a sequence is shell-quoted).
+    settings : sequence of (str, object), optional
+        The run's settings as the caller words them (the command line passes
+        its options with their values), shown as given and in order;
+        with them the report says that the command line re-runs the run, and
+        names the directory it ran in.
+    support_digits : int, optional
+        Decimals of the support written to the tree file: the figure shows
+        support as the file holds it (the tree is re-read from its Newick text
+        at these digits, so each value keeps its file's text).
     warnings : sequence of str or CladewrightWarning, optional
         Warnings of the caller's own, shown beside the run's: those in
         ``info["warnings"]``, or, when ``info`` holds none, those
@@ -326,6 +397,9 @@ def write_report(path: str | os.PathLike[str], *, alignment: Alignment | None = 
     highlight_below : float, optional
         Support threshold marked in the figures (default 70).
     title : str
+    groups, group_title : optional
+        Taxon name -> category, to colour the tree figure's leaves with a
+        legend titled ``group_title`` (:func:`cladewright.io.leaf_table.read_leaf_groups`).
 
     References
     ----------
@@ -336,5 +410,6 @@ def write_report(path: str | os.PathLike[str], *, alignment: Alignment | None = 
 
     text = report_html(alignment=alignment, dm=dm, tree=tree, info=info, command_line=command_line,
                        warnings=warnings, support_values=support_values, highlight_below=highlight_below,
-                       title=title)
+                       title=title, settings=settings, support_digits=support_digits, groups=groups,
+                       group_title=group_title)
     write_text_atomic(path, text)

@@ -56,11 +56,11 @@ def test_compare_rf_equals_dendropy(tmp_path, seed):
     assert result.exit_code == 0, result.output
     row = next(csv.DictReader(io.StringIO(result.stdout), delimiter="\t"))
     rf = dendropy_rf(a, b)
-    assert int(row["rf"]) == rf
+    assert int(row["robinson_foulds"]) == rf
     n = len(names)
-    assert float(row["rf_normalised"]) == pytest.approx(rf / (2 * (n - 3)))
-    assert int(row["only_a"]) + int(row["only_b"]) == rf
-    assert int(row["shared"]) + int(row["only_a"]) == n - 3  # a binary tree has n - 3 splits
+    assert float(row["robinson_foulds_normalised"]) == pytest.approx(rf / (2 * (n - 3)))
+    assert int(row["splits_only_in_a"]) + int(row["splits_only_in_b"]) == rf
+    assert int(row["splits_shared"]) + int(row["splits_only_in_a"]) == n - 3  # a binary tree has n - 3 splits
 
 
 def test_compare_many_trees_is_a_matrix(tmp_path):
@@ -106,22 +106,22 @@ def test_root_midpoint_and_outgroup(tmp_path):
     src.write_text(random_tree(rng, names).to_newick())
     diameter = max(dendropy.Tree.get(path=str(src), schema="newick").phylogenetic_distance_matrix().distances())
     out = tmp_path / "mid.nwk"
-    assert run("root", src, "-o", out, "--midpoint").exit_code == 0
+    assert run("root", src, "-o", out, "--root", "midpoint").exit_code == 0
     d = dendropy.Tree.get(path=str(out), schema="newick", rooting="force-rooted")
     assert max(x.distance_from_root() for x in d.leaf_node_iter()) == pytest.approx(diameter / 2)
     assert read_trees(out)[0].rooted
     nex = tmp_path / "out.nex"
-    assert run("root", src, "-o", nex, "--outgroup", "t3").exit_code == 0
+    assert run("root", src, "-o", nex, "--root", "outgroup:t3").exit_code == 0
     assert nex.read_text().lstrip().upper().startswith("#NEXUS")
     d = dendropy.Tree.get(path=str(nex), schema="nexus", rooting="force-rooted")
     assert {"t3"} in [{x.taxon.label for x in c.leaf_nodes()} for c in d.seed_node.child_nodes()]
     # usage errors: one line, status 2, nothing written
-    for args in ([], ["--midpoint", "--outgroup", "t1"], ["--outgroup", "nobody"]):
+    for args in ([], ["--root", "middle"], ["--root", "t1"], ["--root", "outgroup:nobody"]):
         bad = tmp_path / "bad.nwk"
         result = run("root", src, "-o", bad, *args)
         assert result.exit_code == 2 and len(result.stderr.strip().splitlines()) == 1
         assert not bad.exists()
-    assert run("root", src, "-o", src, "--midpoint").exit_code == 2  # output would overwrite input
+    assert run("root", src, "-o", src, "--root", "midpoint").exit_code == 2  # output would overwrite input
 
 
 def test_clusters_on_upgma_tree_equals_fcluster(tmp_path):

@@ -138,3 +138,49 @@ def test_opens_in_a_headless_browser(report, tmp_path):
     for name in tree.leaf_names:
         assert name in dom
     assert dom.count("<svg") >= 3
+
+
+def test_settings_in_words_without_none_or_internal_keys(report):
+    # source: the report's documented contract (docs/trees.md): settings in words, none unset, no internal
+    # keys (the info dict of build_tree_with_info holds None values and keys such as sites_used)
+    path, _, _ = report
+    text = path.read_text(encoding="utf-8")
+    section = text.split('<section id="settings">', 1)[1].split("</section>", 1)[0]
+    cells = re.findall(r"<t[hd]>([^<]*)</t[hd]>", section)
+    assert cells, section[:200]
+    assert "None" not in cells and "nan" not in cells
+    assert not [c for c in cells if re.fullmatch(r"[a-z]+(_[a-z]+)+", c)], cells
+    assert "sites used" in cells and "900" not in cells  # 300 sites simulated; what the run found, in words
+
+
+def test_the_report_colours_its_tree_by_a_column_of_a_leaf_table(tmp_path):
+    # The request: leaves coloured by a column of a metadata table, with a legend, in the report; the
+    # colours are the Okabe & Ito (2008) palette (checked in tests/app/test_draw.py). Here: every category is in
+    # the legend, the command line recorded re-runs with the table, a table without --report is a usage error
+    # (common practice: an option that cannot take effect is refused), and a bad column stops the run before any
+    # file is written.
+    from click.testing import CliRunner
+
+    from cladewright.cli import main
+
+    names, seqs = simulate_dna(9, 120, 5)
+    fasta = tmp_path / "a.fasta"
+    fasta.write_text("".join(f">{a}\n{s}\n" for a, s in zip(names, seqs)))
+    table = tmp_path / "taxa.tsv"
+    table.write_text("taxon\tisland\n" + "".join(f"{a}\t{('Aster', 'Brill', 'Corran')[i % 3]}\n"
+                                                 for i, a in enumerate(names)))
+    html = tmp_path / "r.html"
+    run = CliRunner().invoke(main, ["tree", str(fasta), "-o", str(tmp_path / "t.nwk"), "--report", str(html),
+                                    "--leaf-table", str(table), "--colour-by", "island"])
+    assert run.exit_code == 0, run.output
+    text = html.read_text(encoding="utf-8")
+    for island in ("Aster", "Brill", "Corran"):
+        assert island in text
+    assert "--leaf-table" in text and "--colour-by island" in text
+    alone = CliRunner().invoke(main, ["tree", str(fasta), "-o", str(tmp_path / "u.nwk"), "--leaf-table",
+                                      str(table), "--colour-by", "island"])
+    assert alone.exit_code == 2 and "--report" in alone.stderr
+    bad = CliRunner().invoke(main, ["tree", str(fasta), "-o", str(tmp_path / "v.nwk"), "--report",
+                                    str(tmp_path / "v.html"), "--leaf-table", str(table), "--colour-by", "reef"])
+    assert bad.exit_code != 0 and "reef" in bad.stderr and len(bad.stderr.strip().splitlines()) == 1
+    assert not (tmp_path / "v.nwk").exists() and not (tmp_path / "v.html").exists()

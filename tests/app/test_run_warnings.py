@@ -195,7 +195,7 @@ def test_the_command_line_shows_its_options(tmp_path):
         "--resume needs --save-replicates FILE, the file"
     assert as_options('precision="single" or workers=3 or method="nj" would fit') == \
         "--precision single or --workers 3 or --method nj would fit"
-    assert as_options("model p has no gamma form; set gamma=None or") == "model p has no gamma form; drop --gamma or"
+    assert as_options("model p has no gamma form; set gamma=None or") == "model p has no gamma form; drop --gamma-shape or"
     # a saturated pair stops the run: the library names its parameter, the command line its option
     fasta = tmp_path / "far.fasta"
     seqs = _sequences()
@@ -225,10 +225,16 @@ def test_each_vocabulary_has_one_home():
     assert tuple(options["freqs"].type.choices) == choices.FREQ_MODES
     assert tuple(options["saturated"].type.choices) == choices.SATURATED_MODES
     assert tuple(options["alphabet"].type.choices) == choices.ALPHABETS
-    assert tuple(options["measure"].type.choices) == choices.SUPPORT_MEASURES
+    # the command line's own words for the measures, each naming one of the library's
+    assert tuple(options["measure"].type.choices) == tuple(choices.SUPPORT_WORDS)
+    assert tuple(choices.SUPPORT_WORDS.values()) == choices.SUPPORT_MEASURES
+    assert tuple({p.name: p for p in main.commands["tally"].params}["measure"].type.choices) == \
+        tuple(choices.SUPPORT_WORDS)
     assert tuple(options["fmt"].type.choices) == choices.TREE_FORMATS
     assert tuple(options["refine"].type.choices) == choices.REFINEMENTS
     assert tuple(options["criterion"].type.choices) == choices.LENGTH_CRITERIA
     assert tuple({p.name: p for p in main.commands["lengths"].params}["criterion"].type.choices) == choices.CRITERIA
-    clusters = {p.name: p for p in main.commands["clusters"].params}
-    assert tuple(clusters["rooting"].type.choices) == choices.CLUSTER_ROOTS
+    # one rooting option everywhere: --root RULE, read by one parser
+    for name in ("tree", "root", "clusters"):
+        [root] = [p for p in main.commands[name].params if "--root" in getattr(p, "opts", ())]
+        assert root.metavar == "RULE" and root.name == "root_rule"

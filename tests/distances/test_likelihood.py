@@ -479,7 +479,7 @@ def test_command_line_default_model_follows_the_alphabet(tmp_path):
             result = runner.invoke(main, [command, str(path), "-o", str(tmp_path / "out")])
             assert result.exit_code == 0, result.output
             assert f"model     {name}" in result.stderr
-    ours = runner.invoke(main, ["distances", str(protein), "-o", "-", "-m", "wag", "--gamma", "0.5",
+    ours = runner.invoke(main, ["distances", str(protein), "-o", "-", "-m", "wag", "--gamma-shape", "0.5",
                                 "--gamma-categories", "4"])
     table = np.loadtxt(ours.stdout.splitlines()[1:], usecols=(1, 2, 3), dtype=str).astype(float)
     aln = make_alignment(["a", "b", "c"], ["MKLVAAGHWERTYPLKM", "MKIVAAGHWDRTYPLKL", "MRLVSAGHWERTFPLKM"], "protein")

@@ -386,7 +386,7 @@ def test_gz_replicate_file_is_refused(tmp_path):
     # source: common practice: a replicate file is appended one line at a time and cut back to its last
     # whole line by --resume, which a compressed stream does not allow; refused before anything is written
     reps = tmp_path / "reps.nwk.gz"
-    result = _run(["tree", EXAMPLE, "-o", tmp_path / "t.nwk", "-b", 2, "--seed", 1, "--workers", 1,
+    result = _run(["tree", EXAMPLE, "-o", tmp_path / "t.nwk", "--replicates", 2, "--seed", 1, "--workers", 1,
                    "--save-replicates", reps])
     _assert_one_line_error(result, "a replicate file is written uncompressed")
     assert list(tmp_path.iterdir()) == []

@@ -261,7 +261,7 @@ def test_cli_huge_gamma_writes_the_plain_distances(tmp_path):
     src = tmp_path / "aln.fasta"
     src.write_text("".join(f">s{i}\n{s}\n" for i, s in enumerate(DNA_SEQS)))
     out = tmp_path / "m.tsv"
-    result = CliRunner().invoke(main, ["distances", str(src), "-o", str(out), "--model", "jc69", "--gamma", "1e300"])
+    result = CliRunner().invoke(main, ["distances", str(src), "-o", str(out), "--model", "jc69", "--gamma-shape", "1e300"])
     assert result.exit_code == 0, result.output
     rows = [line.split("\t") for line in out.read_text().splitlines()]
     for i, j in PAIRS:

@@ -355,8 +355,8 @@ CLI_FAILURES = [
     ("distances", ">a\nACGT\n>b\n----\n>c\nACGA\n", [], "share no unambiguous site"),
     ("distances", ">a\nMKLV\n>b\nMKIV\n", ["--model", "k2p"], "is for dna but the alignment is protein"),
     ("distances", GOOD, ["--model", "nope"], "unknown model 'nope'"),
-    ("distances", GOOD, ["--gamma", "0"], "must be a positive number"),
-    ("distances", GOOD, ["--gamma", "-2", "--model", "jc69"], "must be a positive number"),
+    ("distances", GOOD, ["--gamma-shape", "0"], "must be a positive number"),
+    ("distances", GOOD, ["--gamma-shape", "-2", "--model", "jc69"], "must be a positive number"),
     ("distances", b"", [], "empty"),
     ("distances", bytes(range(256)), [], "binary file"),
     ("distances", gzip.compress(GOOD.encode())[:-7], [], "gzip stream is truncated"),
@@ -523,7 +523,7 @@ def test_full_disk_during_a_bootstrap_keeps_a_resumable_replicate_file(tmp_path,
     from cladewright.resampling import replicate_file
 
     example = Path(__file__).resolve().parents[2] / "example_alignments" / "glass_snails_coi.fasta"
-    args = ["tree", example, "-b", 60, "--seed", 5, "--workers", 1]
+    args = ["tree", example, "--replicates", 60, "--seed", 5, "--workers", 1]
     whole, whole_reps = tmp_path / "whole.nwk", tmp_path / "whole_reps.nwk"
     assert _run(args + ["-o", whole, "--save-replicates", whole_reps]).exit_code == 0
     out = tmp_path / "out.nwk"

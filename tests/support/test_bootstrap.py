@@ -115,7 +115,7 @@ def test_same_bytes_for_one_and_two_workers(tmp_path):
     outs = []
     for w in (1, 2):
         out, reps = tmp_path / f"t{w}.nwk", tmp_path / f"r{w}.nwk"
-        r = _cli(["tree", EXAMPLE, "-o", out, "-b", 24, "--seed", 17, "--workers", w, "--save-replicates", reps])
+        r = _cli(["tree", EXAMPLE, "-o", out, "--replicates", 24, "--seed", 17, "--workers", w, "--save-replicates", reps])
         assert r.exit_code == 0, r.output
         outs.append((out.read_bytes(), reps.read_bytes()))
     assert outs[0] == outs[1]
@@ -142,7 +142,7 @@ def _example_names_and_seqs():
 
 def test_resume_after_a_kill_equals_an_uninterrupted_run(tmp_path):
     whole, whole_reps = tmp_path / "whole.nwk", tmp_path / "whole_reps.nwk"
-    args = ["tree", EXAMPLE, "-b", 300, "--seed", 23, "--workers", 1]
+    args = ["tree", EXAMPLE, "--replicates", 300, "--seed", 23, "--workers", 1]
     assert _cli(args + ["-o", whole, "--save-replicates", whole_reps]).exit_code == 0
 
     part, part_reps = tmp_path / "part.nwk", tmp_path / "part_reps.nwk"
@@ -169,9 +169,9 @@ def test_resume_after_a_kill_equals_an_uninterrupted_run(tmp_path):
 
 def test_resume_refuses_other_settings(tmp_path):
     reps = tmp_path / "r.nwk"
-    assert _cli(["tree", EXAMPLE, "-o", tmp_path / "a.nwk", "-b", 3, "--seed", 1, "--workers", 1,
+    assert _cli(["tree", EXAMPLE, "-o", tmp_path / "a.nwk", "--replicates", 3, "--seed", 1, "--workers", 1,
                  "--save-replicates", reps]).exit_code == 0
-    r = _cli(["tree", EXAMPLE, "-o", tmp_path / "b.nwk", "-b", 5, "--seed", 2, "--workers", 1,
+    r = _cli(["tree", EXAMPLE, "-o", tmp_path / "b.nwk", "--replicates", 5, "--seed", 2, "--workers", 1,
               "--save-replicates", reps, "--resume"])
     assert r.exit_code == 2 and "other data, settings or seed" in r.output
 
@@ -179,16 +179,16 @@ def test_resume_refuses_other_settings(tmp_path):
 def test_existing_replicate_file_is_not_overwritten(tmp_path):
     reps = tmp_path / "r.nwk"
     reps.write_text("keep me\n")
-    r = _cli(["tree", EXAMPLE, "-o", tmp_path / "a.nwk", "-b", 3, "--save-replicates", reps])
+    r = _cli(["tree", EXAMPLE, "-o", tmp_path / "a.nwk", "--replicates", 3, "--save-replicates", reps])
     assert r.exit_code == 2 and "--resume" in r.output and reps.read_text() == "keep me\n"
 
 
 def test_seed_is_drawn_and_reported(tmp_path):
-    r = CliRunner().invoke(main, ["tree", str(EXAMPLE), "-o", str(tmp_path / "a.nwk"), "-b", "4",
+    r = CliRunner().invoke(main, ["tree", str(EXAMPLE), "-o", str(tmp_path / "a.nwk"), "--replicates", "4",
                                   "--workers", "1"])
     assert r.exit_code == 0
     seed = int(r.stderr.split("seed ")[1].split()[0])
-    again = CliRunner().invoke(main, ["tree", str(EXAMPLE), "-o", str(tmp_path / "b.nwk"), "-b", "4",
+    again = CliRunner().invoke(main, ["tree", str(EXAMPLE), "-o", str(tmp_path / "b.nwk"), "--replicates", "4",
                                       "--workers", "1", "--seed", str(seed)])
     assert again.exit_code == 0
     assert (tmp_path / "a.nwk").read_bytes() == (tmp_path / "b.nwk").read_bytes()
@@ -196,10 +196,10 @@ def test_seed_is_drawn_and_reported(tmp_path):
 
 def test_support_command_matches_the_bootstrap(tmp_path):
     out, reps = tmp_path / "t.nwk", tmp_path / "r.nwk"
-    assert _cli(["tree", EXAMPLE, "-o", out, "-b", 20, "--seed", 3, "--workers", 1,
+    assert _cli(["tree", EXAMPLE, "-o", out, "--replicates", 20, "--seed", 3, "--workers", 1,
                  "--save-replicates", reps]).exit_code == 0
     again = tmp_path / "again.nwk"
-    assert _cli(["support", out, reps, "-o", again]).exit_code == 0
+    assert _cli(["tally", reps, "--onto", out, "-o", again]).exit_code == 0
     assert again.read_bytes() == out.read_bytes()
 
 
@@ -208,7 +208,7 @@ def test_support_command_names_missing_taxa(tmp_path):
     ref.write_text("((a,b),(c,d),e);\n")
     reps = tmp_path / "reps.nwk"
     reps.write_text("((a,b),(c,x),e);\n")
-    r = _cli(["support", ref, reps, "-o", tmp_path / "o.nwk"])
+    r = _cli(["tally", reps, "--onto", ref, "-o", tmp_path / "o.nwk"])
     assert r.exit_code == 2 and "'d'" in r.output and "'x'" in r.output
 
 
@@ -216,7 +216,7 @@ def test_consensus_command_equals_dendropy(tmp_path):
     # reference: DendroPy majority-rule consensus (TreeList.consensus, min_freq 0.5); 21 replicates so
     # that no split sits exactly at one half
     reps = tmp_path / "r.nwk"
-    assert _cli(["tree", EXAMPLE, "-o", tmp_path / "t.nwk", "-b", 21, "--seed", 8, "--workers", 1,
+    assert _cli(["tree", EXAMPLE, "-o", tmp_path / "t.nwk", "--replicates", 21, "--seed", 8, "--workers", 1,
                  "--save-replicates", reps]).exit_code == 0
     out = tmp_path / "c.nwk"
     assert _cli(["consensus", reps, "-o", out]).exit_code == 0
@@ -232,5 +232,5 @@ def test_consensus_command_equals_dendropy(tmp_path):
 def test_bad_replicate_counts_are_errors():
     with pytest.raises(InputError, match="replicates"):
         bootstrap(star(1), 0)
-    r = _cli(["tree", EXAMPLE, "-o", "-", "-b", "-3"])
+    r = _cli(["tree", EXAMPLE, "-o", "-", "--replicates", "-3"])
     assert r.exit_code == 2

@@ -115,7 +115,7 @@ def test_replicate_file_that_is_also_the_tree_or_report_is_refused(tmp_path):
     # counted as a replicate by --resume. Symbolic links are resolved (POSIX realpath), hard links compared
     # by device and inode (os.path.samefile).
     fasta = _small_alignment(tmp_path)
-    base = ["tree", fasta, "-b", 3, "--seed", 1, "--workers", 1]
+    base = ["tree", fasta, "--replicates", 3, "--seed", 1, "--workers", 1]
     out = tmp_path / "out.nwk"
     _one_line_error(_cli(base + ["-o", out, "--save-replicates", out]), "--save-replicates and --output")
     assert not out.exists()
@@ -142,18 +142,18 @@ def test_a_replicate_file_held_by_another_run_is_refused(tmp_path):
     fasta = _small_alignment(tmp_path)
     base = ["tree", fasta, "--seed", 4, "--workers", 1]
     reps, whole_reps = tmp_path / "reps.nwk", tmp_path / "whole.nwk"
-    assert _cli(base + ["-b", 5, "-o", tmp_path / "a.nwk", "--save-replicates", reps]).exit_code == 0
+    assert _cli(base + ["--replicates", 5, "-o", tmp_path / "a.nwk", "--save-replicates", reps]).exit_code == 0
     before = reps.read_bytes(), Path(f"{reps}.run.json").read_bytes()
     with open(reps, "rb") as held:
         fcntl.flock(held.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
-        r = _cli(base + ["-b", 9, "-o", tmp_path / "b.nwk", "--save-replicates", reps, "--resume"])
+        r = _cli(base + ["--replicates", 9, "-o", tmp_path / "b.nwk", "--save-replicates", reps, "--resume"])
         _one_line_error(r, "in use by another run")
         fcntl.flock(held.fileno(), fcntl.LOCK_UN)
     assert (reps.read_bytes(), Path(f"{reps}.run.json").read_bytes()) == before
     assert not (tmp_path / "b.nwk").exists()
     # once the other run has let go, the file resumes to what an uninterrupted run gives (Felsenstein 1985)
-    assert _cli(base + ["-b", 9, "-o", tmp_path / "b.nwk", "--save-replicates", reps, "--resume"]).exit_code == 0
-    assert _cli(base + ["-b", 9, "-o", tmp_path / "c.nwk", "--save-replicates", whole_reps]).exit_code == 0
+    assert _cli(base + ["--replicates", 9, "-o", tmp_path / "b.nwk", "--save-replicates", reps, "--resume"]).exit_code == 0
+    assert _cli(base + ["--replicates", 9, "-o", tmp_path / "c.nwk", "--save-replicates", whole_reps]).exit_code == 0
     assert reps.read_bytes() == whole_reps.read_bytes()
     assert (tmp_path / "b.nwk").read_bytes() == (tmp_path / "c.nwk").read_bytes()
 
@@ -163,7 +163,7 @@ def test_two_runs_on_one_replicate_file_at_once(tmp_path):
     # 1985: one tree per replicate); a second run resuming the same file while the first writes it stops
     fasta = _small_alignment(tmp_path, n=10, length=150)
     reps = tmp_path / "reps.nwk"
-    args = ["tree", str(fasta), "-b", "4000", "--seed", "8", "--workers", "1"]
+    args = ["tree", str(fasta), "--replicates", "4000", "--seed", "8", "--workers", "1"]
     first = subprocess.Popen([sys.executable, "-m", "cladewright.cli", "--quiet"] + args +
                              ["-o", str(tmp_path / "first.nwk"), "--save-replicates", str(reps)],
                              stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
@@ -183,13 +183,13 @@ def test_two_runs_on_one_replicate_file_at_once(tmp_path):
 
 def _run_to_file(tmp_path, fasta, replicates, name):
     out, reps = tmp_path / f"{name}.nwk", tmp_path / f"{name}_reps.nwk"
-    r = _cli(["tree", fasta, "-b", replicates, "--seed", 12, "--workers", 1, "-o", out, "--save-replicates", reps])
+    r = _cli(["tree", fasta, "--replicates", replicates, "--seed", 12, "--workers", 1, "-o", out, "--save-replicates", reps])
     assert r.exit_code == 0, r.output
     return out, reps
 
 
 def _resume(tmp_path, fasta, replicates, reps, out):
-    return _cli(["tree", fasta, "-b", replicates, "--seed", 12, "--workers", 1, "-o", out,
+    return _cli(["tree", fasta, "--replicates", replicates, "--seed", 12, "--workers", 1, "-o", out,
                  "--save-replicates", reps, "--resume"])
 
 
@@ -237,7 +237,7 @@ def test_a_huge_replicate_count_names_the_count_not_memory(tmp_path):
     # name the replicate count and a count that fits, not a generic out-of-memory advice
     fasta = _small_alignment(tmp_path)
     out = tmp_path / "t.nwk"
-    line = _one_line_error(_cli(["tree", fasta, "-o", out, "-b", 1000000000000, "--seed", 1]),
+    line = _one_line_error(_cli(["tree", fasta, "-o", out, "--replicates", 1000000000000, "--seed", 1]),
                            "1000000000000 replicates", "ask for at most")
     assert "out of memory" not in line and not out.exists()
     fit = int(line.split("ask for at most ")[1].split()[0])
@@ -350,7 +350,7 @@ def test_replicates_that_saturate_a_pair_cap_it_and_are_counted(tmp_path):
         assert result.info["saturated"] == 0  # the tree of the full data needed no cap
 
     out, report, reps = tmp_path / "t.nwk", tmp_path / "run.html", tmp_path / "reps.nwk"
-    r = CliRunner().invoke(main, ["tree", str(fasta), "-o", str(out), "-m", "jc69", "-b", "40", "--seed", "3",
+    r = CliRunner().invoke(main, ["tree", str(fasta), "-o", str(out), "-m", "jc69", "--replicates", "40", "--seed", "3",
                                   "--workers", "1", "--report", str(report), "--save-replicates", str(reps)])
     assert r.exit_code == 0, r.output
     said = f"{hit.sum()} of 40 bootstrap replicates drew sites that saturate a pair"

@@ -30,7 +30,7 @@ def _wait_for_lines(path, count, timeout=120):
 
 
 def test_ctrl_c_leaves_files_consistent_and_resumable(tmp_path):
-    args = ["tree", str(EXAMPLE), "-b", "300", "--seed", "31", "--workers", "2"]
+    args = ["tree", str(EXAMPLE), "--replicates", "300", "--seed", "31", "--workers", "2"]
     whole, whole_reps = tmp_path / "whole.nwk", tmp_path / "whole_reps.nwk"
     r = CliRunner().invoke(main, ["--quiet"] + args + ["-o", str(whole), "--save-replicates", str(whole_reps)])
     assert r.exit_code == 0, r.output

@@ -84,11 +84,11 @@ def plain_labels(text):
 # ---- 6. labels kept as read -------------------------------------------------
 
 @pytest.mark.parametrize("args,suffix", [
-    (["--midpoint"], ".nwk"),
-    (["--outgroup", "i,j"], ".nwk"),
-    (["--outgroup", "a"], ".nwk"),
-    (["--outgroup", "e,f"], ".nex"),
-    (["--midpoint"], ".nexus"),
+    (["--root", "midpoint"], ".nwk"),
+    (["--root", "outgroup:i,j"], ".nwk"),
+    (["--root", "outgroup:a"], ".nwk"),
+    (["--root", "outgroup:e,f"], ".nex"),
+    (["--root", "midpoint"], ".nexus"),
 ])
 @pytest.mark.parametrize("source", ["newick", "nexus"])
 def test_root_writes_labels_exactly_as_read(tmp_path, args, suffix, source):
@@ -127,7 +127,7 @@ def test_computed_support_replaces_the_text(tmp_path):
     reps = tmp_path / "reps.nwk"
     reps.write_text(LABELLED * 3)
     out = tmp_path / "out.nwk"
-    assert run("support", src, reps, "-o", out).exit_code == 0
+    assert run("tally", reps, "--onto", src, "-o", out).exit_code == 0
     assert plain_labels(out.read_text()) == ["100"] * 7
     [t] = parse_newick(LABELLED)
     assert apply_support(t, np.full(7, 12.5)).to_newick(support_digits=1).count(")12.5") == 7
@@ -278,7 +278,7 @@ def test_strict_consensus(tmp_path, seed, count, first):
     reps = tmp_path / "reps.nwk"
     reps.write_text(replicate_set(seed, count, first))
     out = tmp_path / "strict.nwk"
-    result = run("consensus", reps, "-o", out, "--threshold", 1)
+    result = run("consensus", reps, "-o", out, "--threshold", 100)
     assert result.exit_code == 0, result.stderr
     every = set.intersection(*(set(s) for s in splits_of_file(reps)))
     assert len(every) >= 5  # the four groups and the a1+a2 cherry, by construction

@@ -82,7 +82,7 @@ def _args(command, caterpillar, tmp_path):
 def test_midpoint_root(caterpillar, tmp_path):
     # Midpoint rooting puts the root halfway along the longest leaf-to-leaf path (common practice), here
     # the N-branch path from t0 to t{N-1}: both ends at N/2 from the root, no leaf further.
-    args = _args(["root", "{t}", "-o", "{d}/rooted.nwk", "--midpoint"], caterpillar, tmp_path)
+    args = _args(["root", "{t}", "-o", "{d}/rooted.nwk", "--root", "midpoint"], caterpillar, tmp_path)
     _ok(args)
     out = read_trees(tmp_path / "rooted.nwk")[0]
     assert out.n_leaves == N
@@ -92,7 +92,7 @@ def test_midpoint_root(caterpillar, tmp_path):
 
 
 def test_outgroup_root(caterpillar, tmp_path):
-    args = _args(["root", "{t}", "-o", "{d}/rooted.nwk", "--outgroup", "t0"], caterpillar, tmp_path)
+    args = _args(["root", "{t}", "-o", "{d}/rooted.nwk", "--root", "outgroup:t0"], caterpillar, tmp_path)
     _ok(args)
     out = read_trees(tmp_path / "rooted.nwk")[0]
     _, dist, size, total = _plain(out)
@@ -123,7 +123,7 @@ def test_show(caterpillar):
 def test_support_of_a_tree_by_itself(caterpillar, tmp_path):
     # Each split of a tree is in the one replicate, the tree itself: FBP 100% (Felsenstein 1985); a
     # rooted binary tree of N leaves has N - 3 nontrivial splits, one branch at the root repeating another.
-    _ok(_args(["support", "{t}", "{t}", "-o", "{d}/supported.nwk"], caterpillar, tmp_path))
+    _ok(_args(["tally", "{t}", "--onto", "{t}", "-o", "{d}/supported.nwk"], caterpillar, tmp_path))
     out = read_trees(tmp_path / "supported.nwk")[0]
     assert out.n_leaves == N
     shown = out.support[~np.isnan(out.support)]

@@ -188,15 +188,21 @@ def test_outgroup_single_taxon_and_bad_names():
 
 
 def test_root_tree_spec():
-    # worked by hand, as in the two tests above; the command line reads its --root text into root_tree's
-    # arguments (cladewright.cli.app.root_options), the library takes them explicitly
-    from cladewright.cli.app import root_options
+    # worked by hand, as in the two tests above; the command line reads its --root RULE text into a rule
+    # (cladewright.cli.app.parse_root) that calls the library's rooting, which takes its arguments explicitly
+    from cladewright.cli.app import parse_root
 
     t = Tree([4, 4, 5, 5, 5, -1], [1.0, 1.0, 1.0, 1.0, 2.0, np.nan], list("abcd"))
-    assert root_tree(t, **root_options("c,d")).to_newick() == "((a:1.0,b:1.0):1.0,(c:1.0,d:1.0):1.0);\n"
-    assert root_tree(t, **root_options("Midpoint")).to_newick() == midpoint_root(t).to_newick()
-    with pytest.raises(InputError):
-        root_options("")
+    assert parse_root("outgroup:c,d").apply(t).to_newick() == "((a:1.0,b:1.0):1.0,(c:1.0,d:1.0):1.0);\n"
+    assert parse_root("Midpoint").apply(t).to_newick() == midpoint_root(t).to_newick()
+    stored = parse_root("stored").apply(t)
+    # the stored root kept and marked meaningful: the same tree, written with the rooted mark (common practice)
+    assert stored.rooted and not t.rooted and stored.to_newick() == "[&R] " + t.to_newick()
+    for wrong in ("", "c,d", "outgroup:", "outgroup:c,,d", "midpoint:x"):
+        with pytest.raises(InputError, match="--root"):
+            parse_root(wrong)
+    with pytest.raises(InputError, match="midpoint or outgroup"):
+        parse_root("stored", stored=False)
     assert root_tree(t, outgroup=["c", "d"]).to_newick() == "((a:1.0,b:1.0):1.0,(c:1.0,d:1.0):1.0);\n"
     assert root_tree(t, midpoint=True).to_newick() == midpoint_root(t).to_newick()
     for wrong in ({}, {"midpoint": True, "outgroup": ["c"]}, {"outgroup": "c,d"}):

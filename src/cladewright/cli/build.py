@@ -6,27 +6,27 @@ The commands that build: ``distances`` (a matrix from an alignment) and ``tree``
 from __future__ import annotations
 
 import os
-import sys
+import secrets
 import time
 from typing import TYPE_CHECKING
 
 import click
 
 from ..choices import (INSERTION_METHODS, JOINING_METHODS, LINKAGE_METHODS, NEGATIVE_RULES, PRECISIONS, REFINEMENTS,
-                       SUPPORT_MEASURES)
+                       SUPPORT_WORDS)
 from ..distances import DEFAULT_MODELS, MODELS
 from ..errors import InputError
 from ..matrix import DistanceMatrix
 from ..memory import check_fits
-from .app import (check_output_not_input, guarded, main, model_options, output_format, root_options,
-                  tree_output_options, write_tree)
-from .summary import distance_summary, shown_warnings, tree_summary
+from .app import (check_output_not_input, guarded, main, model_options, output_format, output_line, root_option,
+                  support_option, tree_kind, tree_output_options, write_tree)
+from .summary import distance_summary, shown_warnings, support_words, tree_summary
 
 if TYPE_CHECKING:
     from ..alignment import Alignment
     from ..build.criteria import LengthCriterion
     from ..resampling import BootstrapResult
-    from .app import Context
+    from .app import Context, RootRule
 
 __all__ = ["distances", "tree", "read_input"]
 
@@ -39,7 +39,7 @@ MODEL_HELP: str = "\b\nModels (--model; default: k2p for DNA, lg for protein):\n
 @click.option("--output", "-o", required=True, metavar="FILE", help="Labelled TSV matrix to write ('-': stdout).")
 @model_options
 @click.option("--gamma-categories", type=click.IntRange(1, 256), default=None, metavar="K",
-              help="With --gamma and a likelihood model (gtr, hky, jtt, wag, lg, dcmut): K discrete gamma "
+              help="With --gamma-shape and a likelihood model (gtr, hky, jtt, wag, lg, dcmut): K discrete gamma "
                    "categories (Yang 1994) instead of the continuous gamma.")
 @click.pass_obj
 @guarded
@@ -58,7 +58,9 @@ def distances(obj: Context, alignment: str, output: str, model: str | None, gamm
                          saturated=saturated, dtype=PRECISIONS[precision], progress=not obj.quiet,
                          gamma_categories=gamma_categories)
     dm.write(output)
-    obj.say(distance_summary(aln, dm, time.perf_counter() - start))
+    obj.say(distance_summary(aln, dm, time.perf_counter() - start) + "\n"
+            + output_line(output, "TSV, distance matrix" + (", gzip-compressed" if output.lower().endswith(".gz")
+                                                            else "")))
 
 
 def read_input(path: str, alphabet: str | None, precision: str = "double"
@@ -111,46 +113,63 @@ def _check_outputs(input_path: str, output: str, save_replicates: str | None, re
                    "evolution (default) or ordinary least squares.")
 @model_options
 @click.option("--gamma-categories", type=click.IntRange(1, 256), default=None, metavar="K",
-              help="With --gamma and a likelihood model (gtr, hky, jtt, wag, lg, dcmut): K discrete gamma "
+              help="With --gamma-shape and a likelihood model (gtr, hky, jtt, wag, lg, dcmut): K discrete gamma "
                    "categories (Yang 1994) instead of the continuous gamma.")
 @click.option("--negative", type=click.Choice(NEGATIVE_RULES), default="zero", show_default=True,
               help="Negative NJ/BIONJ branch lengths: set to zero, or keep as computed.")
-@click.option("--root", "root_spec", default=None, metavar="midpoint|TAXON[,TAXON]",
-              help="Root the tree at its midpoint or on the branch to an outgroup.")
-@click.option("--replicates", "-b", type=click.IntRange(0, None), default=0, show_default=True,
+@root_option(stored=False, help="Root the tree.")
+@click.option("--replicates", type=click.IntRange(0, None), default=0, show_default=True,
               help="Bootstrap replicates (0: no support).")
-@click.option("--seed", type=click.IntRange(0, None), default=None, help="Seed of the bootstrap (drawn if not given).")
+@click.option("--seed", type=click.IntRange(0, None), default=None,
+              help="Seed of the bootstrap (drawn, shown and recorded in the report if not given).")
 @click.option("--workers", type=click.IntRange(1, None), default=None,
               help="Replicates run side by side on this machine (default: cores).")
-@click.option("--support", "measure", type=click.Choice(SUPPORT_MEASURES), default="fbp", show_default=True,
-              help="Felsenstein bootstrap proportion or transfer bootstrap expectation.")
+@support_option
 @click.option("--save-replicates", type=click.Path(dir_okay=False), default=None,
               help="Append each replicate tree to this file, one Newick line each.")
 @click.option("--resume", is_flag=True, help="Continue --save-replicates FILE after an interruption.")
 @click.option("--scheduler", default=None, metavar="ADDRESS", help="Run replicates on this Dask scheduler.")
 @click.option("--report", "report_path", type=click.Path(dir_okay=False), default=None,
               help="Also write a self-contained HTML report of the run.")
+@click.option("--leaf-table", default=None, metavar="TSV",
+              help="With --report and --colour-by: a table of the taxa (tab-separated, a header row, the taxon "
+                   "name first) whose column colours the report's tree.")
+@click.option("--colour-by", default=None, metavar="COLUMN",
+              help="Colour the report's tree by this column of --leaf-table, with a legend.")
 @click.option("--binary", is_flag=True,
               help="Write a fully resolved tree: polytomies (identical sequences, branches of length zero) "
                    "resolved by branches of length zero without support, for software that needs binary trees.")
 @tree_output_options
-@click.pass_obj
+@click.pass_context
 @guarded
-def tree(obj: Context, input_path: str, output: str, method: str, refine: str, criterion: LengthCriterion | None,
-         model: str | None, gamma: float | None, gaps: str,
-         freqs: str | None, saturated: str, alphabet: str | None, precision: str, negative: str, root_spec: str | None,
+def tree(ctx: click.Context, input_path: str, output: str, method: str, refine: str,
+         criterion: LengthCriterion | None, model: str | None, gamma: float | None, gaps: str,
+         freqs: str | None, saturated: str, alphabet: str | None, precision: str, negative: str,
+         root_rule: RootRule | None,
          replicates: int, seed: int | None, workers: int | None, measure: str, save_replicates: str | None,
          resume: bool, scheduler: str | None, report_path: str | None, binary: bool, fmt: str | None,
-         digits: int | None, support_digits: int, gamma_categories: int | None) -> None:
+         digits: int | None, support_digits: int, gamma_categories: int | None, leaf_table: str | None,
+         colour_by: str | None) -> None:
     """Build a tree from INPUT: an alignment (FASTA or NEXUS) or a labelled distance matrix (TSV)."""
     from ..build import build_tree_with_info
     from ..pipeline import split_identical, tree_from_alignment, zero_tolerance
     from ..polytomies import collapse_zero_branches, resolve_polytomies
 
+    obj: Context = ctx.obj
     _check_outputs(input_path, output, save_replicates, report_path)
-    rooting = root_options(root_spec) if root_spec else None
+    if (leaf_table is None) != (colour_by is None):
+        raise click.UsageError("give --leaf-table TSV and --colour-by COLUMN together")
+    if leaf_table is not None and not report_path:
+        raise click.UsageError("--leaf-table and --colour-by colour the report's tree: add --report FILE")
+    if replicates and seed is None:
+        seed = secrets.randbelow(2**31)  # drawn here, so that the summary and the report can give it
     start = time.perf_counter()
     aln, dm = read_input(input_path, alphabet, precision)
+    groups = None
+    if leaf_table is not None and colour_by is not None:  # read before any work: a bad table stops the run
+        from ..io.leaf_table import read_leaf_groups
+
+        groups = read_leaf_groups(leaf_table, colour_by, aln.names if aln is not None else tuple(dm.names))
     if aln is not None and model is None:
         model = DEFAULT_MODELS[aln.alphabet]  # the default model follows the alignment's alphabet
     # identical sequences enter the distances and the tree once: the matrix is that of the distinct ones
@@ -169,7 +188,8 @@ def tree(obj: Context, input_path: str, output: str, method: str, refine: str, c
         from ..resampling import bootstrap
 
         boot = bootstrap(aln, replicates, model=model, method=method, gamma=gamma, gaps=gaps, freqs=freqs,
-                         saturated=saturated, negative=negative, seed=seed, workers=workers, support=measure,
+                         saturated=saturated, negative=negative, seed=seed, workers=workers,
+                         support=SUPPORT_WORDS[measure],
                          save_replicates=save_replicates, resume=resume, scheduler=scheduler,
                          progress=not obj.quiet, precision=precision, refine=refine,
                          criterion=criterion, gamma_categories=gamma_categories)
@@ -187,22 +207,34 @@ def tree(obj: Context, input_path: str, output: str, method: str, refine: str, c
         info.update(dm.info)
         result = collapse_zero_branches(result, zero_tolerance(dm.values.dtype))
     info["negative"] = negative
+    if boot is not None:
+        info.update(seed=boot.seed, support=support_words(measure))
     # the run's warnings, worded once by the library, in this command line's terms for summary and report
     info["warnings"] = shown_warnings(info, aln)
-    if rooting is not None:
-        from ..rooting import root_tree
-
-        result = root_tree(result, **rooting)
+    if root_rule is not None:
+        result = root_rule.apply(result)
     if binary:
         result = resolve_polytomies(result)
     write_tree(result, output, fmt, digits, support_digits)
     seconds = time.perf_counter() - start
-    summary = tree_summary(aln, dm, info, boot, seconds, info["warnings"])
+    summary = tree_summary(aln, dm, info, boot, seconds, info["warnings"], measure)
+    outputs = [output_line(output, tree_kind(output, fmt))]
+    if save_replicates:
+        outputs.append(output_line(save_replicates, f"Newick, {replicates} replicate trees"))
     if report_path:
+        from ..distances import resolve_model
         from ..report import write_report
+        from .record import explicit_command, tree_values
 
-        write_report(report_path, alignment=aln, dm=dm, tree=result, info=info,
-                     command_line=" ".join(["cladewright"] + sys.argv[1:]), support_values=result.support)
-    where = "standard output" if output == "-" else output
-    obj.say(summary + f"\noutput    {where} ({output_format(output, fmt)})"
-            + (f", report {report_path}" if report_path else ""))
+        assert ctx.command is not None
+        values = tree_values(ctx.params, from_alignment=aln is not None,
+                             model=resolve_model(model, aln.alphabet) if aln is not None else None, info=info,
+                             alphabet=aln.alphabet if aln is not None else None, seed=seed, measure_word=measure,
+                             output_format=output_format(output, fmt))
+        if groups is not None:
+            values.update(leaf_table=leaf_table, colour_by=colour_by)
+        command_line, settings = explicit_command(ctx.command, "tree", values)
+        write_report(report_path, alignment=aln, dm=dm, tree=result, info=info, command_line=command_line,
+                     settings=settings, support_digits=support_digits, groups=groups, group_title=colour_by)
+        outputs.append(output_line(report_path, "HTML, run report"))
+    obj.say("\n".join([summary] + outputs))

@@ -12,7 +12,8 @@ from typing import TYPE_CHECKING
 import click
 
 from ..choices import CRITERIA, PRECISIONS
-from .app import check_output_not_input, guarded, main, model_options, tree_output_options, write_tree
+from .app import (check_output_not_input, guarded, main, model_options, output_line, tree_kind, tree_output_options,
+                  write_tree)
 from .build import MODEL_HELP, read_input
 
 if TYPE_CHECKING:
@@ -64,5 +65,5 @@ def lengths(obj: Context, tree_path: str, input_path: str, output: str, criterio
     if info.get("negative_branches"):
         lines.append(f"warning   {info['negative_branches']} fitted branch length(s) are negative (kept as fitted)")
     lines.append(f"time      {time.perf_counter() - start:.2f} s")
-    lines.append(f"output    {'standard output' if output == '-' else output}")
+    lines.append(output_line(output, tree_kind(output, fmt)))
     obj.say("\n".join(lines))

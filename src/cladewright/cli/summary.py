@@ -9,16 +9,17 @@ from __future__ import annotations
 from collections.abc import Iterable, Mapping
 from typing import TYPE_CHECKING, Any
 
+from ..choices import SUPPORT_WORDS
 from ..errors import CladewrightWarning
 from ..pipeline import run_warnings
-from .app import as_options
+from .wording import as_options
 
 if TYPE_CHECKING:
     from ..alignment import Alignment
     from ..matrix import DistanceMatrix
     from ..resampling import BootstrapResult
 
-__all__ = ["distance_summary", "tree_summary", "identical_lines", "shown_warnings"]
+__all__ = ["distance_summary", "tree_summary", "identical_lines", "shown_warnings", "support_words"]
 
 
 def shown_warnings(info: dict[str, Any], alignment: Alignment | None = None) -> list[CladewrightWarning]:
@@ -65,9 +66,15 @@ def distance_summary(aln: Alignment, dm: DistanceMatrix, seconds: float) -> str:
     return "\n".join(lines)
 
 
+def support_words(word: str) -> str:
+    """A support measure in the command line's word with the paper's acronym: ``proportion (FBP)``."""
+    return f"{word} ({SUPPORT_WORDS[word].upper()})"
+
+
 def tree_summary(aln: Alignment | None, dm: DistanceMatrix, info: Mapping[str, Any], boot: BootstrapResult | None,
-                 seconds: float, warnings: Iterable[CladewrightWarning]) -> str:
-    """``warnings``: the run's warnings as :func:`shown_warnings` gives them."""
+                 seconds: float, warnings: Iterable[CladewrightWarning], measure: str = "proportion") -> str:
+    """``warnings``: the run's warnings as :func:`shown_warnings` gives them; ``measure``: the support
+    measure in the command line's word."""
     lines = []
     if aln is not None:
         lines.append(f"taxa      {aln.n_taxa}")
@@ -93,7 +100,8 @@ def tree_summary(aln: Alignment | None, dm: DistanceMatrix, info: Mapping[str, A
     lines.extend(identical_lines(info))
     if boot is not None:
         resumed = f", {info['resumed']} resumed" if info.get("resumed") else ""
-        lines.append(f"support   {boot.support.upper()}, {len(boot.replicates)} replicates{resumed}, seed {boot.seed}")
+        lines.append(f"support   {support_words(measure)}, {len(boot.replicates)} replicates{resumed}, "
+                     f"seed {boot.seed}")
     lines.extend(warning_lines(warnings))
     lines.append(f"time      {seconds:.2f} s")
     return "\n".join(lines)

@@ -14,13 +14,12 @@ from typing import TYPE_CHECKING, Any
 import click
 import numpy as np
 
-from ..choices import CLUSTER_ROOTS
 from ..errors import InputError
-from .app import ROOT_HELP, check_output_not_input, guarded, main, root_options
+from .app import check_output_not_input, guarded, main, output_line, root_option, tree_kind
 
 if TYPE_CHECKING:
     from ..tree import Tree
-    from .app import Context
+    from .app import Context, RootRule
 
 
 def _first_tree(path: str, obj: Context | None = None) -> Tree:
@@ -54,6 +53,10 @@ def _support_digits(tree: Tree) -> int:
     return 2
 
 
+def _tree_kind(output: str) -> str:
+    return tree_kind(output, "nexus" if output.lower().removesuffix(".gz").endswith((".nex", ".nexus")) else "newick")
+
+
 def _write_tree(tree: Tree, output: str) -> None:
     fmt = "nexus" if output.lower().removesuffix(".gz").endswith((".nex", ".nexus")) else "newick"
     tree.write(output, format=fmt, support_digits=_support_digits(tree))
@@ -63,31 +66,20 @@ def _write_tree(tree: Tree, output: str) -> None:
 @click.argument("tree_path", metavar="TREE")
 @click.option("--output", "-o", required=True, metavar="FILE",
               help="Rooted tree to write: Newick, NEXUS when FILE ends in .nex or .nexus ('-': stdout).")
-@click.option("--midpoint", is_flag=True, help="Root halfway along the longest leaf-to-leaf path.")
-@click.option("--outgroup", metavar="TAXON[,TAXON...]",
-              help="Root on the branch separating these taxa (a clade of the unrooted tree) from the rest.")
+@root_option(required=True, help="Where to root.")
 @click.pass_obj
 @guarded
-def root(obj: Context, tree_path: str, output: str, midpoint: bool, outgroup: str | None) -> None:
-    """Root the first tree of TREE at its midpoint or on an outgroup.
+def root(obj: Context, tree_path: str, output: str, root_rule: RootRule) -> None:
+    """Root the first tree of TREE by a --root RULE: at its midpoint, on an outgroup, or at the stored root.
 
     Branch lengths are split where the root falls; support stays with the
     split it belongs to.
     """
-    from ..rooting import midpoint_root, outgroup_root
-
-    if midpoint == bool(outgroup):
-        raise InputError("give exactly one of --midpoint or --outgroup TAXON[,TAXON...]")
     check_output_not_input(output, tree_path)
     tree = _first_tree(tree_path, obj)
-    if outgroup:  # exactly one of the two was given (checked above)
-        rooted = outgroup_root(tree, outgroup.split(","))
-        how = f"outgroup {outgroup}"
-    else:
-        rooted = midpoint_root(tree)
-        how = "midpoint of the longest path"
+    rooted = root_rule.apply(tree)
     _write_tree(rooted, output)
-    obj.say(f"rooted    {rooted.n_leaves} taxa, {how}\nwritten   {output}")
+    obj.say(f"rooted    {rooted.n_leaves} taxa, {root_rule.describe()}\n" + output_line(output, _tree_kind(output)))
 
 
 def _pair(paths: Sequence[str], trees: Sequence[Tree], i: int, j: int) -> dict[str, Any]:
@@ -106,6 +98,12 @@ def _square(labels: Sequence[str], values: Any, fmt: Callable[[Any], str]) -> st
     for label, row in zip(labels, cells):
         lines.append(label.ljust(width) + "  " + "  ".join(c.rjust(cw) for c in row))
     return "\n".join(lines)
+
+
+#: The columns of ``compare --tsv``, one row per pair of trees.
+TSV_COLUMNS: tuple[str, ...] = ("tree_a", "tree_b", "taxa", "robinson_foulds", "robinson_foulds_max",
+                                "robinson_foulds_normalised", "splits_shared", "splits_only_in_a",
+                                "splits_only_in_b", "branch_score")
 
 
 @main.command("compare")
@@ -132,7 +130,7 @@ def compare(obj: Context, tree_files: tuple[str, ...], tsv: bool, output: str) -
     results = {(i, j): _pair(tree_files, trees, i, j) for i in range(k) for j in range(i + 1, k)}
     n = trees[0].n_leaves
     if tsv:
-        lines = ["tree_a\ttree_b\ttaxa\trf\trf_max\trf_normalised\tshared\tonly_a\tonly_b\tbranch_score"]
+        lines = ["\t".join(TSV_COLUMNS)]
         for (i, j), r in results.items():
             lines.append(f"{tree_files[i]}\t{tree_files[j]}\t{n}\t{r['rf']}\t{r['max']}\t{r['normalised']!r}\t"
                          f"{r['shared']}\t{r['only_a']}\t{r['only_b']}\t{r['branch_score']!r}")
@@ -161,6 +159,8 @@ def compare(obj: Context, tree_files: tuple[str, ...], tsv: bool, output: str) -
                  "branch score distance\n" + _square(labels, bs, lambda v: f"{v:.4g}")]
         text = "\n\n".join(parts) + "\n"
     write_text_atomic(output, text)
+    obj.say(output_line(output, "TSV, one row per pair of trees" if tsv else "text, " + (
+        "comparison table" if k == 2 else "matrices of distances")))
 
 
 @main.command("clusters")
@@ -168,11 +168,10 @@ def compare(obj: Context, tree_files: tuple[str, ...], tsv: bool, output: str) -
 @click.option("--within", "within", type=float, required=True, metavar="D",
               help="Largest path length between two members of a group (inclusive).")
 @click.option("--output", "-o", required=True, metavar="FILE", help="TSV of taxon and group ('-': stdout).")
-@click.option("--root", "rooting", type=click.Choice(CLUSTER_ROOTS), default="auto",
-              show_default=True, help="auto: a rooted tree as stored, an unrooted one midpoint-rooted first.")
+@root_option(help="Root first (default: a rooted tree as stored, an unrooted one at its midpoint).")
 @click.pass_obj
 @guarded
-def clusters(obj: Context, tree_path: str, within: float, output: str, rooting: str) -> None:
+def clusters(obj: Context, tree_path: str, within: float, output: str, root_rule: RootRule | None) -> None:
     """Group the taxa of TREE into the largest clades whose members all lie
     within path length D of each other (e.g. barcodes at a divergence
     threshold). On a UPGMA tree this is cutting the tree at height D/2.
@@ -185,6 +184,12 @@ def clusters(obj: Context, tree_path: str, within: float, output: str, rooting: 
 
     check_output_not_input(output, tree_path)
     tree = _first_tree(tree_path, obj)
+    if root_rule is None:
+        rooting = "auto"  # a rooted tree as stored, an unrooted one at its midpoint
+    elif root_rule.kind == "midpoint":
+        rooting = "midpoint"
+    else:  # the tree rooted on the outgroup, or its stored root taken as meaningful
+        tree, rooting = root_rule.apply(tree), "stored"
     labels, sizes = clusters_within(tree, within, root=rooting, source=tree_path)
     names = tree.leaf_names
     order = sorted(range(len(names)), key=lambda i: (int(labels[i]), names[i]))
@@ -194,7 +199,7 @@ def clusters(obj: Context, tree_path: str, within: float, output: str, rooting: 
     shown = ", ".join(str(s) for s in sizes[:12]) + (f", ... ({sizes.size - 12} more)" if sizes.size > 12 else "")
     single = int(np.count_nonzero(sizes == 1))
     obj.say(f"groups    {sizes.size} within {within:g} ({len(names)} taxa; {single} singleton(s))\n"
-            f"sizes     {shown}\nwritten   {output}")
+            f"sizes     {shown}\n" + output_line(output, "TSV, taxon and group"))
 
 
 @main.command("draw")
@@ -205,30 +210,75 @@ def clusters(obj: Context, tree_path: str, within: float, output: str, rooting: 
                    "is compared as percentages.")
 @click.option("--no-ladderize", is_flag=True, help="Keep the stored order of branches.")
 @click.option("--title", default=None, help="Title at the top of the figure.")
-@click.option("--root", "root_spec", default=None, metavar="midpoint|TAXA", help=ROOT_HELP)
+@root_option(help="Root the tree before drawing it.")
+@click.option("--layout", type=click.Choice(("rectangular", "circular")), default="rectangular",  # draw.LAYOUTS
+              show_default=True, help="rectangular: leaves in one column; circular: the root at the centre, "
+                                      "the leaves round it.")
+@click.option("--size", "size_text", default=None, metavar="WxH",
+              help="Figure size in inches, e.g. 8x10 (default: from the number of taxa).")
+@click.option("--unit", default=None, metavar="TEXT",
+              help="What the branch lengths measure, named by the scale bar (default 'branch length'; e.g. "
+                   "'substitutions per site' or 'p-distance').")
+@click.option("--leaf-table", default=None, metavar="TSV",
+              help="A table of facts about the taxa: tab-separated, a header row, the taxon names in the first "
+                   "column.")
+@click.option("--colour-by", default=None, metavar="COLUMN",
+              help="Colour the taxa by this column of --leaf-table, with a legend.")
 @click.option("--groups-within", type=float, default=None, metavar="D",
               help="Colour the taxa by their group at path length D (see 'clusters').")
 @click.pass_obj
 @guarded
 def draw(obj: Context, tree_path: str, output: str, highlight_below: float | None, no_ladderize: bool,
-         title: str | None, root_spec: str | None, groups_within: float | None) -> None:
-    """Draw the first tree of TREE as a figure (SVG, PNG or PDF by suffix)."""
+         title: str | None, root_rule: RootRule | None, layout: str, size_text: str | None, unit: str | None,
+         leaf_table: str | None, colour_by: str | None, groups_within: float | None) -> None:
+    """Draw the first tree of TREE as a figure (SVG, PNG or PDF by suffix).
+
+    With --leaf-table and --colour-by, each taxon's name and tip take the
+    colour of its value in that column (a colour-blind-safe palette, and a
+    legend); taxa missing from the table are grey.
+    """
+    from typing import cast
+
     from ..draw import render_tree
 
-    check_output_not_input(output, tree_path)
+    if (leaf_table is None) != (colour_by is None):
+        raise InputError("give --leaf-table TSV and --colour-by COLUMN together")
+    if colour_by is not None and groups_within is not None:
+        raise InputError("give one of --colour-by or --groups-within, not both")
+    size = None
+    if size_text is not None:
+        parts = size_text.strip().lower().replace("×", "x").split("x")
+        try:
+            size = tuple(float(p) for p in parts)
+        except ValueError:
+            size = ()
+        if len(size) != 2 or not all(0 < s <= 200 for s in size):
+            raise InputError(f"--size {size_text!r} is not WIDTHxHEIGHT in inches; give two numbers above 0 and "
+                             "at most 200, e.g. --size 8x10")
+    check_output_not_input(output, tree_path, leaf_table)
     tree = _first_tree(tree_path, obj)
-    if root_spec:
-        from ..rooting import root_tree
-        tree = root_tree(tree, **root_options(root_spec))
-    groups = None
+    if root_rule is not None:
+        tree = root_rule.apply(tree)
+    groups: Any = None
+    group_title = None
+    if leaf_table is not None and colour_by is not None:
+        from ..io.leaf_table import read_leaf_groups
+        groups = read_leaf_groups(leaf_table, colour_by, tree.leaf_names)
+        group_title = groups.column
+        for count, what in ((len(groups.ignored), f"of {leaf_table} not in the tree: rows ignored"),
+                            (len(groups.missing), f"with no value in column {colour_by!r}: drawn in grey as "
+                                                  "'not in table'")):
+            if count:
+                obj.say(f"note      {count} tax{'on' if count == 1 else 'a'} {what}")
     if groups_within is not None:
         from ..clusters import clusters_within
-        groups, sizes = clusters_within(tree, groups_within, source=tree_path)
+        groups, _ = clusters_within(tree, groups_within, source=tree_path)
     fmt = render_tree(tree, output, highlight_below=highlight_below, ladderize=not no_ladderize, title=title,
-                    groups=groups)
+                      groups=groups, unit=unit, size=cast("tuple[float, float] | None", size),
+                      layout=cast(Any, layout), group_title=group_title)
     below = highlight_below is not None
     _scale_note(obj, tree, f"; --highlight-below {highlight_below:g} is a percentage" if below else "")
-    obj.say(f"drawn     {tree.n_leaves} taxa as {fmt.upper()}\nwritten   {output}")
+    obj.say(f"drawn     {tree.n_leaves} taxa, {layout} layout\n" + output_line(output, f"{fmt.upper()} figure"))
 
 
 @main.command("show")
@@ -236,21 +286,23 @@ def draw(obj: Context, tree_path: str, output: str, highlight_below: float | Non
 @click.option("--ascii", "plain", is_flag=True, help="Plain ASCII characters instead of box drawing.")
 @click.option("--width", type=click.IntRange(10, 1000), default=None, help="Columns for the branches.")
 @click.option("--no-ladderize", is_flag=True, help="Keep the stored order of branches.")
-@click.option("--root", "root_spec", default=None, metavar="midpoint|TAXA", help=ROOT_HELP)
+@root_option(help="Root the tree before drawing it.")
+@click.option("--unit", default=None, metavar="TEXT",
+              help="What the branch lengths measure, named by the scale bar (default 'branch length').")
 @click.pass_obj
 @guarded
 def show(obj: Context, tree_path: str, plain: bool, width: int | None, no_ladderize: bool,
-         root_spec: str | None) -> None:
+         root_rule: RootRule | None, unit: str | None) -> None:
     """Print the first tree of TREE as a text drawing, with support values
-    (as percentages; support read on a 0-1 scale is multiplied by 100)."""
+    (as percentages; support read on a 0-1 scale is multiplied by 100).
+    An unrooted tree is drawn from its stored root, and the drawing says so."""
     from ..textdraw import text_tree
 
     tree = _first_tree(tree_path, obj)
-    if root_spec:
-        from ..rooting import root_tree
-        tree = root_tree(tree, **root_options(root_spec))
+    if root_rule is not None:
+        tree = root_rule.apply(tree)
     _scale_note(obj, tree)
-    click.echo(text_tree(tree, width=width, ascii=plain, ladderize=not no_ladderize), nl=False)
+    click.echo(text_tree(tree, width=width, ascii=plain, ladderize=not no_ladderize, unit=unit), nl=False)
 
 
 __all__ = ["root", "compare", "clusters", "draw", "show"]
