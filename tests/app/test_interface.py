@@ -351,3 +351,33 @@ def test_report_figure_uses_the_tree_files_digits(tmp_path):
     shown = set(re.findall(r"<text[^>]*>([^<]*)</text>", figure))
     assert written <= shown
     assert not [x for x in shown if re.fullmatch(r"\d+", x)]  # no label rounded to a whole percentage
+
+
+def test_quoting_option_writes_names_that_strict_readers_keep(tmp_path):
+    # Newick's informal standard (1986) makes an unquoted '_' a blank; DendroPy's default reader follows it and
+    # keeps quoted names as written. Plain output writes 'Homo_sapiens' bare (what most software expects);
+    # --quoting strict quotes it, so that DendroPy's default reader reads the names exactly.
+    import dendropy
+    from click.testing import CliRunner
+
+    from cladewright.cli import main
+
+    fasta = tmp_path / "q.fasta"
+    names = ["Homo_sapiens", "Pan_troglodytes", "Gorilla_gorilla", "Pongo_abelii"]
+    seqs = ["ACGTACGTACGT", "ACGTACGTAAGT", "ACGTACCTAAGT", "ACCTACCTAAGA"]
+    fasta.write_text("".join(f">{a}\n{s}\n" for a, s in zip(names, seqs)))
+    runner = CliRunner()
+    for quoting in ("plain", "strict"):
+        out = tmp_path / f"{quoting}.nwk"
+        args = ["tree", str(fasta), "-o", str(out), "--report", str(tmp_path / f"{quoting}.html")]
+        r = runner.invoke(main, args + (["--quoting", "strict"] if quoting == "strict" else []))
+        assert r.exit_code == 0, r.output
+        text = out.read_text()
+        assert ("'Homo_sapiens'" in text) == (quoting == "strict")
+        read = dendropy.Tree.get(data=text, schema="newick")
+        labels = sorted(t.label for t in read.taxon_namespace)
+        if quoting == "strict":
+            assert labels == sorted(names)
+        else:
+            assert labels == sorted(x.replace("_", " ") for x in names)
+        assert f"--quoting {quoting}" in (tmp_path / f"{quoting}.html").read_text()

@@ -25,6 +25,7 @@ import click
 from ..choices import (ALPHABETS, FREQ_MODES, GAP_MODES, PRECISIONS, SATURATED_MODES, SUPPORT_WORDS,
                        TREE_FORMATS)
 from ..errors import CladewrightError, InputError
+from ..io.newick_writer import QUOTINGS
 from .wording import PARAMETER_OPTIONS, as_options
 
 if TYPE_CHECKING:
@@ -41,14 +42,17 @@ __all__ = ["main", "Context", "guarded", "as_options", "PARAMETER_OPTIONS", "mod
 
 
 class Context:
-    """What every command is given (``click.pass_obj``): the group's ``--debug`` and ``--quiet``."""
+    """What every command is given (``click.pass_obj``): the group's ``--debug`` and ``--quiet``, and
+    the command's Newick ``--quoting``."""
 
     debug: bool
     quiet: bool
+    quoting: str
 
     def __init__(self, debug: bool, quiet: bool) -> None:
         self.debug = debug
         self.quiet = quiet
+        self.quoting = "plain"
 
     def say(self, text: str) -> None:
         """Print ``text`` on stderr, unless ``--quiet``."""
@@ -209,7 +213,19 @@ def tree_output_options(func: F) -> F:
                      help="Significant digits of branch lengths (default: full round-trip precision)."),
         click.option("--support-digits", type=click.IntRange(0, 6), default=0, show_default=True,
                      help="Decimals of support percentages."),
+        click.option("--quoting", type=click.Choice(QUOTINGS), default="plain", show_default=True,
+                     expose_value=False, callback=_keep_quoting,
+                     help="Newick names: plain writes names whose only special character is '_' as they are "
+                          "(what most software reads); strict quotes them too, for readers that turn a bare "
+                          "'_' into a blank. NEXUS output always quotes them."),
     ])
+
+
+def _keep_quoting(ctx: click.Context, param: click.Parameter, value: str) -> str:
+    """Keep ``--quoting`` on the run's :class:`Context`, for :func:`write_tree`."""
+    if isinstance(ctx.obj, Context):
+        ctx.obj.quoting = value
+    return value
 
 
 def check_output_not_input(output: str | None, *inputs: str | None) -> None:
@@ -237,8 +253,15 @@ def output_format(output: str, fmt: str | None) -> str:
 
 
 def write_tree(tree: Tree, output: str, fmt: str | None, digits: int | None, support_digits: int) -> None:
-    """Write ``tree`` to ``output`` in the format :func:`output_format` tells."""
-    tree.write(output, format=output_format(output, fmt), digits=digits, support_digits=support_digits)
+    """Write ``tree`` to ``output`` in the format :func:`output_format` tells (Newick with the command's
+    ``--quoting``)."""
+    form = output_format(output, fmt)
+    if form == "newick":
+        ctx = click.get_current_context(silent=True)
+        quoting = ctx.obj.quoting if ctx is not None and isinstance(ctx.obj, Context) else "plain"
+        tree.write(output, format=form, digits=digits, support_digits=support_digits, quoting=quoting)
+    else:
+        tree.write(output, format=form, digits=digits, support_digits=support_digits)
 
 
 #: The metavar and help of ``--root`` wherever it appears: one spelling of rooting on every command.

@@ -233,6 +233,8 @@ def tree(ctx: click.Context, input_path: str, output: str, method: str, refine: 
                              output_format=output_format(output, fmt))
         if groups is not None:
             values.update(leaf_table=leaf_table, colour_by=colour_by)
+        if output_format(output, fmt) == "newick":
+            values["quoting"] = obj.quoting
         command_line, settings = explicit_command(ctx.command, "tree", values)
         write_report(report_path, alignment=aln, dm=dm, tree=result, info=info, command_line=command_line,
                      settings=settings, support_digits=support_digits, groups=groups, group_title=colour_by)
