@@ -82,15 +82,34 @@ def _row_counts(planes, valid, word_weight, i, p0, kind, out):
             out[0, p] = shared
             out[1, p] = same
         elif kind == FULL:
-            for a in range(4):
-                for b in range(4):
-                    out[4 * a + b, p] = 0
+            # sixteen sums held in locals (not in ``out``, which the compiler
+            # cannot keep in registers across the loop over words)
+            c00 = c01 = c02 = c03 = c10 = c11 = c12 = c13 = 0
+            c20 = c21 = c22 = c23 = c30 = c31 = c32 = c33 = 0
             for w in range(n_words):
                 wt = word_weight[w]
-                for a in range(4):
-                    x = planes[i, w, a]
-                    for b in range(4):
-                        out[4 * a + b, p] += wt * popcount(x & planes[j, w, b])
+                x0, x1, x2, x3 = planes[i, w, 0], planes[i, w, 1], planes[i, w, 2], planes[i, w, 3]
+                y0, y1, y2, y3 = planes[j, w, 0], planes[j, w, 1], planes[j, w, 2], planes[j, w, 3]
+                c00 += wt * popcount(x0 & y0)
+                c01 += wt * popcount(x0 & y1)
+                c02 += wt * popcount(x0 & y2)
+                c03 += wt * popcount(x0 & y3)
+                c10 += wt * popcount(x1 & y0)
+                c11 += wt * popcount(x1 & y1)
+                c12 += wt * popcount(x1 & y2)
+                c13 += wt * popcount(x1 & y3)
+                c20 += wt * popcount(x2 & y0)
+                c21 += wt * popcount(x2 & y1)
+                c22 += wt * popcount(x2 & y2)
+                c23 += wt * popcount(x2 & y3)
+                c30 += wt * popcount(x3 & y0)
+                c31 += wt * popcount(x3 & y1)
+                c32 += wt * popcount(x3 & y2)
+                c33 += wt * popcount(x3 & y3)
+            out[0, p], out[1, p], out[2, p], out[3, p] = c00, c01, c02, c03
+            out[4, p], out[5, p], out[6, p], out[7, p] = c10, c11, c12, c13
+            out[8, p], out[9, p], out[10, p], out[11, p] = c20, c21, c22, c23
+            out[12, p], out[13, p], out[14, p], out[15, p] = c30, c31, c32, c33
         elif kind == TRANSITIONS:
             # Two-bit form (see transition_planes): a transversion changes the
             # purine bit, a transition only the keto bit.
@@ -191,3 +210,54 @@ def put_pairs(values, r0, d):
             j = i + 1
         values[i, j] = d[p]
         j += 1
+
+
+@nb.njit(cache=True, nogil=True)
+def log_det_frequencies(block):
+    """For each pair p of a (16, m) FULL count block: ln det F, F the 4 x 4
+    table of state-pair frequencies (counts over their sum), by Gaussian
+    elimination with partial pivoting; nan where det F <= 0 or no site is
+    shared (the LogDet of Lockhart et al. 1994 is then undefined)."""
+    m = block.shape[1]
+    out = np.empty(m, np.float64)
+    a = np.empty((4, 4), np.float64)
+    for p in range(m):
+        total = 0.0
+        for r in range(4):
+            for s in range(4):
+                x = float(block[4 * r + s, p])
+                a[r, s] = x
+                total += x
+        if total <= 0.0:
+            out[p] = np.nan
+            continue
+        for r in range(4):
+            for s in range(4):
+                a[r, s] /= total
+        sign = 1.0
+        logdet = 0.0
+        for k in range(4):
+            piv = k
+            big = abs(a[k, k])
+            for r in range(k + 1, 4):
+                if abs(a[r, k]) > big:
+                    big = abs(a[r, k])
+                    piv = r
+            if big == 0.0:
+                sign = 0.0
+                break
+            if piv != k:
+                for s in range(4):
+                    a[k, s], a[piv, s] = a[piv, s], a[k, s]
+                sign = -sign
+            d = a[k, k]
+            if d < 0.0:
+                sign = -sign
+            logdet += np.log(abs(d))
+            for r in range(k + 1, 4):
+                f = a[r, k] / d
+                if f != 0.0:
+                    for s in range(k + 1, 4):
+                        a[r, s] -= f * a[k, s]
+        out[p] = logdet if sign > 0.0 else np.nan
+    return out

@@ -372,11 +372,13 @@ def _expanded(dm: DistanceMatrix, names: tuple[str, ...], group: NDArray[np.int6
 def _count_dict(block: NDArray[np.int64], kind: int) -> dict[str, NDArray[Any]]:
     """Name the rows of a (n_counts, m) count block."""
     if kind == kc.FULL:
-        # one pass: transposed to pairs-first and made float64 (slogdet's type) together
-        full = block.T.astype(np.float64).reshape(-1, 4, 4)
+        # ln det of each pair's frequency table in compiled code (not a batched
+        # LAPACK call per 4 x 4 table), and the tables' row and column sums
         shared = block.sum(axis=0)
         same = block[0] + block[5] + block[10] + block[15]
-        return {"shared": shared, "same": same, "full": full,
+        table = block.reshape(4, 4, -1)
+        return {"shared": shared, "same": same, "logdet_f": kc.log_det_frequencies(block),
+                "rows": table.sum(axis=1).T, "cols": table.sum(axis=0).T,
                 "ag": block[2] + block[8], "ct": block[7] + block[13]}
     c = {"shared": block[0], "same": block[1]}
     if kind in (kc.TRANSITIONS, kc.COMPOSITION):

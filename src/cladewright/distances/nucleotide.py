@@ -133,29 +133,27 @@ def tn93(c: Mapping[str, NDArray[Any]], pi: ArrayLike, gamma: float | None = Non
             + 2.0 * k3 * neg_log(y3, gamma))
 
 
-def _logdet_parts(c: Mapping[str, NDArray[Any]]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
-    full = np.asarray(c["full"], dtype=np.float64)
-    total = full.sum(axis=(1, 2))
-    f = full / total[:, None, None]
-    sign, logabsdet = np.linalg.slogdet(f)
-    logabsdet = np.where(sign > 0, logabsdet, np.nan)
-    return f, logabsdet
+def _logdet_parts(c: Mapping[str, NDArray[Any]]) -> NDArray[np.float64]:
+    """ln det F of each pair (nan where det F <= 0), F the pair's 4 x 4 table of
+    state-pair frequencies, from the counting engine (``logdet_f``)."""
+    return np.asarray(c["logdet_f"], dtype=np.float64)
 
 
 def logdet(c: Mapping[str, NDArray[Any]], pi: ArrayLike | None = None,
            gamma: float | None = None) -> NDArray[np.float64]:
     """LogDet (Lockhart et al. 1994): zero for identical sequences with equal base frequencies."""
-    _, ld = _logdet_parts(c)
+    ld = _logdet_parts(c)
     return -0.25 * ld - np.log(4.0)
 
 
 def paralinear(c: Mapping[str, NDArray[Any]], pi: ArrayLike | None = None,
                gamma: float | None = None) -> NDArray[np.float64]:
     """Paralinear distance (Lake 1994)."""
-    f, ld = _logdet_parts(c)
-    rows = f.sum(axis=2)
-    cols = f.sum(axis=1)
-    with np.errstate(divide="ignore"):
+    ld = _logdet_parts(c)
+    total = np.asarray(c["shared"], dtype=np.float64)[:, None]
+    rows = np.asarray(c["rows"], dtype=np.float64) / total
+    cols = np.asarray(c["cols"], dtype=np.float64) / total
+    with np.errstate(divide="ignore", invalid="ignore"):
         diag = np.log(rows).sum(axis=1) + np.log(cols).sum(axis=1)
     diag = np.where(np.isfinite(diag), diag, np.nan)
     return -0.25 * (ld - 0.5 * diag)
