@@ -3,7 +3,7 @@ Lake 1994) against numpy.linalg.slogdet (LAPACK's LU factorisation), an independ
 
 import numpy as np
 
-from cladewright._kernels.counts import log_det_frequencies
+from cladewright._kernels.counts import log_det_frequencies, log_det_frequencies_serial
 
 
 def test_log_det_of_count_tables_equals_numpy_slogdet():
@@ -21,3 +21,4 @@ def test_log_det_of_count_tables_equals_numpy_slogdet():
     expected[100] = np.nan
     assert np.isnan(ours[[100, 101, 102]]).all()
     np.testing.assert_allclose(ours, expected, rtol=1e-12, atol=1e-12, equal_nan=True)
+    np.testing.assert_array_equal(log_det_frequencies_serial(block), ours)  # the same arithmetic on one thread

@@ -213,51 +213,69 @@ def put_pairs(values, r0, d):
 
 
 @nb.njit(cache=True, nogil=True)
+def _log_det_one(block, p, a):
+    """ln det F of pair p (see :func:`log_det_frequencies`), with ``a`` a 4 x 4 work array."""
+    total = 0.0
+    for r in range(4):
+        for s in range(4):
+            x = float(block[4 * r + s, p])
+            a[r, s] = x
+            total += x
+    if total <= 0.0:
+        return np.nan
+    for r in range(4):
+        for s in range(4):
+            a[r, s] /= total
+    sign = 1.0
+    logdet = 0.0
+    for k in range(4):
+        piv = k
+        big = abs(a[k, k])
+        for r in range(k + 1, 4):
+            if abs(a[r, k]) > big:
+                big = abs(a[r, k])
+                piv = r
+        if big == 0.0:
+            return np.nan
+        if piv != k:
+            for s in range(4):
+                a[k, s], a[piv, s] = a[piv, s], a[k, s]
+            sign = -sign
+        d = a[k, k]
+        if d < 0.0:
+            sign = -sign
+        logdet += np.log(abs(d))
+        for r in range(k + 1, 4):
+            f = a[r, k] / d
+            if f != 0.0:
+                for s in range(k + 1, 4):
+                    a[r, s] -= f * a[k, s]
+    return logdet if sign > 0.0 else np.nan
+
+
+@nb.njit(parallel=True, cache=True, nogil=True)
 def log_det_frequencies(block):
     """For each pair p of a (16, m) FULL count block: ln det F, F the 4 x 4
     table of state-pair frequencies (counts over their sum), by Gaussian
     elimination with partial pivoting; nan where det F <= 0 or no site is
-    shared (the LogDet of Lockhart et al. 1994 is then undefined)."""
+    shared (the LogDet of Lockhart et al. 1994 is then undefined). Pairs run
+    in parallel, in chunks."""
+    m = block.shape[1]
+    out = np.empty(m, np.float64)
+    chunk = 4096
+    for c in nb.prange((m + chunk - 1) // chunk):
+        a = np.empty((4, 4), np.float64)
+        for p in range(c * chunk, min(m, (c + 1) * chunk)):
+            out[p] = _log_det_one(block, p, a)
+    return out
+
+
+@nb.njit(cache=True, nogil=True)
+def log_det_frequencies_serial(block):
+    """:func:`log_det_frequencies` on the calling thread only (bootstrap replicates)."""
     m = block.shape[1]
     out = np.empty(m, np.float64)
     a = np.empty((4, 4), np.float64)
     for p in range(m):
-        total = 0.0
-        for r in range(4):
-            for s in range(4):
-                x = float(block[4 * r + s, p])
-                a[r, s] = x
-                total += x
-        if total <= 0.0:
-            out[p] = np.nan
-            continue
-        for r in range(4):
-            for s in range(4):
-                a[r, s] /= total
-        sign = 1.0
-        logdet = 0.0
-        for k in range(4):
-            piv = k
-            big = abs(a[k, k])
-            for r in range(k + 1, 4):
-                if abs(a[r, k]) > big:
-                    big = abs(a[r, k])
-                    piv = r
-            if big == 0.0:
-                sign = 0.0
-                break
-            if piv != k:
-                for s in range(4):
-                    a[k, s], a[piv, s] = a[piv, s], a[k, s]
-                sign = -sign
-            d = a[k, k]
-            if d < 0.0:
-                sign = -sign
-            logdet += np.log(abs(d))
-            for r in range(k + 1, 4):
-                f = a[r, k] / d
-                if f != 0.0:
-                    for s in range(k + 1, 4):
-                        a[r, s] -= f * a[k, s]
-        out[p] = logdet if sign > 0.0 else np.nan
+        out[p] = _log_det_one(block, p, a)
     return out

@@ -318,7 +318,7 @@ def _formula_blocks(spec: Model, packed: Any, kind: int, pi: Any, gamma: float |
     """``(r0, d, shared)`` per block of rows: the model's formula on the counting engine's counts."""
     assert spec.formula is not None  # the closed-form models
     for r0, _, block in iter_count_blocks(packed, kind, serial=serial):
-        c = _count_dict(block, kind)
+        c = _count_dict(block, kind, serial)
         pair_pi = pi
         if kind == kc.COMPOSITION:
             pair_pi = (c["comp_i"] + c["comp_j"]) / (2.0 * c["shared"][:, None])
@@ -369,16 +369,15 @@ def _expanded(dm: DistanceMatrix, names: tuple[str, ...], group: NDArray[np.int6
     return DistanceMatrix._adopt(names, values, info=info)  # values is a new array: no second copy
 
 
-def _count_dict(block: NDArray[np.int64], kind: int) -> dict[str, NDArray[Any]]:
-    """Name the rows of a (n_counts, m) count block."""
+def _count_dict(block: NDArray[np.int64], kind: int, serial: bool = False) -> dict[str, NDArray[Any]]:
+    """Name the rows of a (n_counts, m) count block (``serial``: compute on the calling thread only)."""
     if kind == kc.FULL:
         # ln det of each pair's frequency table in compiled code (not a batched
         # LAPACK call per 4 x 4 table), and the tables' row and column sums
         shared = block.sum(axis=0)
         same = block[0] + block[5] + block[10] + block[15]
-        table = block.reshape(4, 4, -1)
-        return {"shared": shared, "same": same, "logdet_f": kc.log_det_frequencies(block),
-                "rows": table.sum(axis=1).T, "cols": table.sum(axis=0).T,
+        log_det = kc.log_det_frequencies_serial if serial else kc.log_det_frequencies
+        return {"shared": shared, "same": same, "logdet_f": log_det(block), "table": block,
                 "ag": block[2] + block[8], "ct": block[7] + block[13]}
     c = {"shared": block[0], "same": block[1]}
     if kind in (kc.TRANSITIONS, kc.COMPOSITION):

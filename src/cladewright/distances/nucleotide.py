@@ -151,8 +151,9 @@ def paralinear(c: Mapping[str, NDArray[Any]], pi: ArrayLike | None = None,
     """Paralinear distance (Lake 1994)."""
     ld = _logdet_parts(c)
     total = np.asarray(c["shared"], dtype=np.float64)[:, None]
-    rows = np.asarray(c["rows"], dtype=np.float64) / total
-    cols = np.asarray(c["cols"], dtype=np.float64) / total
+    table = np.asarray(c["table"]).reshape(4, 4, -1)  # the (16, m) count block: row 4a + b is state pair (a, b)
+    rows = table.sum(axis=1).T / total
+    cols = table.sum(axis=0).T / total
     with np.errstate(divide="ignore", invalid="ignore"):
         diag = np.log(rows).sum(axis=1) + np.log(cols).sum(axis=1)
     diag = np.where(np.isfinite(diag), diag, np.nan)
