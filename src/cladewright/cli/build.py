@@ -36,22 +36,35 @@ MODEL_HELP: str = "\b\nModels (--model; default: k2p for DNA, lg for protein):\n
 
 @main.command(epilog=MODEL_HELP)
 @click.argument("alignment", metavar="ALIGNMENT")
-@click.option("--output", "-o", required=True, metavar="FILE", help="Labelled TSV matrix to write ('-': stdout).")
+@click.option("--output", "-o", required=True, metavar="FILE",
+              help="Labelled TSV matrix to write ('-': stdout), or a tiled store: a new directory FILE.zarr.")
 @model_options
 @click.option("--gamma-categories", type=click.IntRange(1, 256), default=None, metavar="K",
               help="With --gamma-shape and a likelihood model (gtr, hky, jtt, wag, lg, dcmut): K discrete gamma "
                    "categories (Yang 1994) instead of the continuous gamma.")
+@click.option("--scheduler", default=None, metavar="ADDRESS",
+              help="With -o FILE.zarr: compute the tiles on this Dask scheduler (default: local threads).")
+@click.option("--resume", is_flag=True, help="With -o FILE.zarr: continue a stopped run, computing only the "
+                                              "missing tiles.")
+@click.option("--tile-size", type=click.IntRange(16, None), default=512, show_default=True, metavar="N",
+              help="With -o FILE.zarr: rows and columns per tile (one task per tile).")
 @click.pass_obj
 @guarded
 def distances(obj: Context, alignment: str, output: str, model: str | None, gamma: float | None, gaps: str,
               freqs: str | None, saturated: str, alphabet: str | None, precision: str,
-              gamma_categories: int | None) -> None:
+              gamma_categories: int | None, scheduler: str | None, resume: bool, tile_size: int) -> None:
     """Write the matrix of pairwise distances of ALIGNMENT (FASTA or NEXUS, '-' for stdin)."""
     from ..distances import distance_matrix
     from ..io.readers import read_alignment
 
     check_output_not_input(output, alignment)
     start = time.perf_counter()
+    if output.rstrip("/").lower().endswith(".zarr"):
+        _tiled(obj, alignment, output, model, gamma, gaps, freqs, saturated, alphabet, precision, gamma_categories,
+               scheduler, resume, tile_size, start)
+        return
+    if scheduler or resume:
+        raise InputError("--scheduler and --resume are for a tiled store: give -o FILE.zarr")
     aln = read_alignment(alignment, alphabet=alphabet)
     check_fits(aln.n_taxa, precision=precision)
     dm = distance_matrix(aln, model=model or DEFAULT_MODELS[aln.alphabet], gamma=gamma, gaps=gaps, freqs=freqs,
@@ -63,12 +76,40 @@ def distances(obj: Context, alignment: str, output: str, model: str | None, gamm
                                                             else "")))
 
 
+def _tiled(obj: Context, alignment: str, output: str, model: str | None, gamma: float | None, gaps: str,
+           freqs: str | None, saturated: str, alphabet: str | None, precision: str, gamma_categories: int | None,
+           scheduler: str | None, resume: bool, tile_size: int, start: float) -> None:
+    """``distances ALN -o FILE.zarr``: the tiled path into a store."""
+    import hashlib
+    from types import SimpleNamespace
+
+    from ..distances.tiled import tiled_distances
+    from ..io.files import read_text
+    from ..io.readers import read_alignment
+
+    text = read_text(alignment)
+    aln = read_alignment(alignment, alphabet=alphabet, text=text)
+    info = tiled_distances(aln, output, model or DEFAULT_MODELS[aln.alphabet], gamma, gaps, freqs,
+                           saturated=saturated, dtype=PRECISIONS[precision], tile=tile_size, scheduler=scheduler,
+                           resume=resume, progress=not obj.quiet, gamma_categories=gamma_categories,
+                           input_sha256=hashlib.sha256(text.encode()).hexdigest())
+    dm = SimpleNamespace(info=info)  # the summary reads only the run's facts
+    obj.say(distance_summary(aln, dm, time.perf_counter() - start) + "\n"  # type: ignore[arg-type]
+            + output_line(output, "Zarr store"))
+
+
 def read_input(path: str, alphabet: str | None, precision: str = "double"
                ) -> tuple[Alignment, None] | tuple[None, DistanceMatrix]:
     """An alignment, or a labelled distance matrix (a TSV whose first cell is empty)."""
     from ..io.files import read_text
-    from ..io.readers import read_alignment, read_distance_matrix
+    from ..io.readers import open_store, read_alignment, read_distance_matrix
+    from ..io.store import is_store
 
+    if is_store(path):
+        dm = open_store(path)
+        if precision == "single":
+            dm = DistanceMatrix(dm.names, dm.values, validate=False, dtype=PRECISIONS[precision], info=dm.info)
+        return None, dm
     text = read_text(path)
     source = "<stdin>" if path == "-" else path
     if text.lstrip(" \n").startswith("\t"):  # the reader skips blank lines before the header

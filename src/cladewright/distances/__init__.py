@@ -28,9 +28,9 @@ from ..progress import Progress
 from . import likelihood as lik
 from . import nucleotide as nuc
 from . import protein as prot
-from .counts import iter_count_blocks, pack, state_frequencies
+from .counts import count_dict, iter_count_blocks, pack, state_frequencies
 
-__all__ = ["distance_matrix", "MODELS", "Model"]
+__all__ = ["distance_matrix", "check_settings", "MODELS", "Model"]
 
 
 #: A distance formula: ``f(c, pi, gamma) -> d`` over the pair counts ``c`` of m pairs, the base
@@ -122,6 +122,54 @@ def resolve_model(model: str | None, alphabet: str, source: str | None = None) -
     return spec
 
 
+def check_settings(alignment: Alignment, model: str | None, gamma: float | None, gaps: str, freqs: str | None,
+                   gamma_categories: int | None, saturated: str = "error"
+                   ) -> tuple[Model, float | None, str, int | None]:
+    """Check an alignment and a model's settings as :func:`distance_matrix` takes them (the tiled store
+    takes the same).
+
+    Returns
+    -------
+    spec, gamma, freqs, gamma_categories
+        The model, the gamma shape as a float (or None), the frequency source (its default filled in:
+        "model" for the protein likelihood models, "alignment" otherwise) and the number of discrete
+        gamma categories.
+
+    Raises
+    ------
+    InputError
+        Naming the parameter and the values it takes.
+    """
+    if not isinstance(alignment, Alignment):
+        raise InputError(f"alignment is {type(alignment).__name__}, not an Alignment; read one with "
+                         "read_alignment(path)")
+    source = alignment.source
+    spec = resolve_model(model, alignment.alphabet, source)
+    if gamma is not None:
+        gamma = _gamma_shape(gamma, source)
+        if not spec.gamma:
+            with_gamma = ", ".join(n for n, m in MODELS.items() if m.gamma)
+            raise InputError(f"model {spec.name} has no gamma form; set gamma=None or choose one of {with_gamma}",
+                             source=source)
+    if not isinstance(gaps, str) or gaps not in GAP_MODES:
+        raise InputError(f"unknown gap mode gaps={gaps!r}; choose gaps=\"pairwise\" or \"complete\"", source=source)
+    if freqs is None:
+        freqs = "model" if spec.likelihood and spec.alphabet == "protein" else "alignment"
+    if not isinstance(freqs, str) or freqs not in FREQ_MODES:
+        raise InputError(f"unknown base-frequency source freqs={freqs!r}; choose freqs=\"alignment\", \"pair\" "
+                         "or \"model\"", source=source)
+    if freqs == "model" and spec.uses_freqs and not (spec.likelihood and spec.alphabet == "protein"):
+        raise InputError(f"freqs=\"model\" is for the protein models jtt, wag, lg and dcmut; for {spec.name} "
+                         "choose freqs=\"alignment\"" + ("" if spec.likelihood else " or \"pair\""),
+                         source=source)
+    if gamma_categories is not None:
+        gamma_categories = lik.check_categories(gamma_categories, gamma, spec.likelihood, source)
+    if not isinstance(saturated, str) or saturated not in SATURATED_MODES:
+        raise InputError(f"unknown saturation rule saturated={saturated!r}; choose saturated=\"error\" or "
+                         "\"cap\"", source=source)
+    return spec, gamma, freqs, gamma_categories
+
+
 def distance_matrix(alignment: Alignment, model: str | None = None, gamma: float | None = None,
                     gaps: str = "pairwise", freqs: str | None = None, *, saturated: str = "error",
                     weights: ArrayLike | None = None, dtype: DTypeLike = np.float64, serial: bool = False,
@@ -194,32 +242,9 @@ def distance_matrix(alignment: Alignment, model: str | None = None, gamma: float
     >>> round(float(distance_matrix(aln, "p").values[0, 1]), 3)
     0.1
     """
-    if not isinstance(alignment, Alignment):
-        raise InputError(f"alignment is {type(alignment).__name__}, not an Alignment; read one with "
-                         "read_alignment(path)")
+    spec, gamma, freqs, gamma_categories = check_settings(alignment, model, gamma, gaps, freqs, gamma_categories,
+                                                          saturated)
     src = alignment.source
-    spec = resolve_model(model, alignment.alphabet, src)
-    if gamma is not None:
-        gamma = _gamma_shape(gamma, src)
-        if not spec.gamma:
-            with_gamma = ", ".join(n for n, m in MODELS.items() if m.gamma)
-            raise InputError(f"model {spec.name} has no gamma form; set gamma=None or choose one of {with_gamma}",
-                             source=src)
-    if not isinstance(gaps, str) or gaps not in GAP_MODES:
-        raise InputError(f"unknown gap mode gaps={gaps!r}; choose gaps=\"pairwise\" or \"complete\"", source=src)
-    if freqs is None:
-        freqs = "model" if spec.likelihood and spec.alphabet == "protein" else "alignment"
-    if not isinstance(freqs, str) or freqs not in FREQ_MODES:
-        raise InputError(f"unknown base-frequency source freqs={freqs!r}; choose freqs=\"alignment\", \"pair\" "
-                         "or \"model\"", source=src)
-    if freqs == "model" and spec.uses_freqs and not (spec.likelihood and spec.alphabet == "protein"):
-        raise InputError(f"freqs=\"model\" is for the protein models jtt, wag, lg and dcmut; for {spec.name} "
-                         "choose freqs=\"alignment\"" + ("" if spec.likelihood else " or \"pair\""), source=src)
-    if gamma_categories is not None:
-        gamma_categories = lik.check_categories(gamma_categories, gamma, spec.likelihood, src)
-    if not isinstance(saturated, str) or saturated not in SATURATED_MODES:
-        raise InputError(f"unknown saturation rule saturated={saturated!r}; choose saturated=\"error\" or "
-                         "\"cap\"", source=src)
     dtype = as_float_dtype(dtype, src)
     n = alignment.n_taxa
     if n < 2:
@@ -318,7 +343,7 @@ def _formula_blocks(spec: Model, packed: Any, kind: int, pi: Any, gamma: float |
     """``(r0, d, shared)`` per block of rows: the model's formula on the counting engine's counts."""
     assert spec.formula is not None  # the closed-form models
     for r0, _, block in iter_count_blocks(packed, kind, serial=serial):
-        c = _count_dict(block, kind, serial)
+        c = count_dict(block, kind, serial)
         pair_pi = pi
         if kind == kc.COMPOSITION:
             pair_pi = (c["comp_i"] + c["comp_j"]) / (2.0 * c["shared"][:, None])
@@ -367,24 +392,6 @@ def _expanded(dm: DistanceMatrix, names: tuple[str, ...], group: NDArray[np.int6
         # every copy of a saturated pair is saturated; only they hold the cap
         info["saturated"] = int(np.count_nonzero(np.triu(values == info["cap"], 1)))
     return DistanceMatrix._adopt(names, values, info=info)  # values is a new array: no second copy
-
-
-def _count_dict(block: NDArray[np.int64], kind: int, serial: bool = False) -> dict[str, NDArray[Any]]:
-    """Name the rows of a (n_counts, m) count block (``serial``: compute on the calling thread only)."""
-    if kind == kc.FULL:
-        # ln det of each pair's frequency table in compiled code (not a batched
-        # LAPACK call per 4 x 4 table), and the tables' row and column sums
-        shared = block.sum(axis=0)
-        same = block[0] + block[5] + block[10] + block[15]
-        log_det = kc.log_det_frequencies_serial if serial else kc.log_det_frequencies
-        return {"shared": shared, "same": same, "logdet_f": log_det(block), "table": block,
-                "ag": block[2] + block[8], "ct": block[7] + block[13]}
-    c = {"shared": block[0], "same": block[1]}
-    if kind in (kc.TRANSITIONS, kc.COMPOSITION):
-        c["ag"], c["ct"] = block[2], block[3]
-    if kind == kc.COMPOSITION:
-        c["comp_i"], c["comp_j"] = block[4:8].T, block[8:12].T
-    return c
 
 
 def _pairs_at(flags: NDArray[np.bool_], r0: int, n: int, limit: int) -> list[tuple[int, int]]:

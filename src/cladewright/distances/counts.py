@@ -20,7 +20,7 @@ from numpy.typing import ArrayLike, NDArray
 from .._kernels import counts as kc
 from .._kernels.matrix import pairs_before
 
-__all__ = ["PackedPatterns", "pack", "iter_count_blocks", "state_frequencies"]
+__all__ = ["PackedPatterns", "pack", "iter_count_blocks", "state_frequencies", "count_dict"]
 
 # Bytes of count array per block of rows: bounds the working memory beside
 # the output matrix.
@@ -128,3 +128,25 @@ def state_frequencies(patterns: NDArray[np.uint8], weights: ArrayLike, n_states:
     if total == 0:
         return np.full(n_states, np.nan)
     return counts[:n_states] / total
+
+
+def count_dict(block: NDArray[np.int64], kind: int, serial: bool = False) -> dict[str, NDArray[np.generic]]:
+    """Name the rows of a (n_counts, m) count block for the models' formulas: ``shared``, ``same``, and
+    as ``kind`` has them ``ag``, ``ct``, ``comp_i``, ``comp_j``; for :data:`FULL <cladewright._kernels.counts.FULL>`
+    also ``logdet_f`` (ln det of each pair's frequency table, compiled; ``serial``: on the calling
+    thread only) and ``table`` (the block itself, row 4a + b the state pair (a, b)).
+
+    The one home of this naming: the in-memory matrix and the tiled store use it alike, so their
+    distances are the same bits.
+    """
+    if kind == kc.FULL:
+        log_det = kc.log_det_frequencies_serial if serial else kc.log_det_frequencies
+        return {"shared": block.sum(axis=0), "same": block[0] + block[5] + block[10] + block[15],
+                "logdet_f": log_det(block), "table": block,
+                "ag": block[2] + block[8], "ct": block[7] + block[13]}
+    c = {"shared": block[0], "same": block[1]}
+    if kind in (kc.TRANSITIONS, kc.COMPOSITION):
+        c["ag"], c["ct"] = block[2], block[3]
+    if kind == kc.COMPOSITION:
+        c["comp_i"], c["comp_j"] = block[4:8].T, block[8:12].T
+    return c

@@ -17,6 +17,8 @@ from __future__ import annotations
 
 import os
 
+import numpy as np
+
 from ..alignment import ALPHABETS, Alignment, detect_alphabet, encode
 from ..errors import InputError
 from ..matrix import DistanceMatrix, check_distance_matrix
@@ -27,7 +29,7 @@ from .matrix_tsv import parse_distance_tsv
 from .newick import TreeRecord, parse_newick_records, text_position
 from .nexus import parse_nexus_records
 
-__all__ = ["read_alignment", "read_distance_matrix", "read_trees", "parse_newick", "parse_nexus_trees"]
+__all__ = ["read_alignment", "read_distance_matrix", "read_trees", "parse_newick", "parse_nexus_trees", "open_store"]
 
 
 def read_alignment(path: str | os.PathLike[str], alphabet: str | None = None, *,
@@ -109,6 +111,54 @@ def read_distance_matrix(path: str | os.PathLike[str], *, text: str | None = Non
     names, values, lines = parse_distance_tsv(text, source)
     check_distance_matrix(names, values, source, where=lambda i, j: f"line {lines[i]}, column {j + 2}")
     return DistanceMatrix._adopt(names, values)
+
+
+def open_store(path: str | os.PathLike[str]) -> DistanceMatrix:
+    """The distance matrix of a finished tiled store (``cladewright distances ALN -o FILE.zarr``).
+
+    The stored matrix (of the distinct sequences) is read once, tile row by
+    tile row, into the returned array; identical sequences then get copies
+    of their row (one more n x n array while that is done), and saturated
+    pairs get the cap when the store was made with ``saturated="cap"``.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The store's directory.
+
+    Returns
+    -------
+    DistanceMatrix
+        The same values, bit for bit, as :func:`cladewright.distance_matrix`
+        with the store's settings; its ``info`` holds them.
+
+    Raises
+    ------
+    InputError
+        For a directory that is not a finished store, or without Zarr installed.
+
+    Examples
+    --------
+    See :func:`cladewright.distances.tiled.tiled_distances`.
+    """
+    from .store import read_store_rows, store_attributes
+
+    attrs, group, (m, _) = store_attributes(path)
+    tile = int(attrs["tile"])
+    first = read_store_rows(path, 0, min(m, tile))
+    values = np.empty((m, m), dtype=first.dtype)
+    values[:first.shape[0]] = first
+    for r0 in range(tile, m, tile):
+        values[r0:r0 + tile] = read_store_rows(path, r0, r0 + tile)
+    if group.size != m or np.any(group != np.arange(m)):
+        values = values[np.ix_(group, group)]
+    info = {k: v for k, v in attrs.items() if k not in ("names", "kind", "complete", "n_rows", "tile",
+                                                          "input_sha256", "dtype", "alphabet")}
+    if info.get("saturated"):
+        bad = ~np.isfinite(values)
+        info["saturated"] = int(np.count_nonzero(np.triu(bad, 1)))
+        values[bad] = info["cap"]
+    return DistanceMatrix._adopt(tuple(attrs["names"]), values, info=info)
 
 
 def read_trees(path: str | os.PathLike[str]) -> list[Tree]:
