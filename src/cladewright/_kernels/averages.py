@@ -45,6 +45,17 @@ import numpy as np
 
 
 @nb.njit(cache=True, nogil=True)
+def work_arrays(m, top):
+    """The work arrays of a table of m nodes for a tree hung from ``top``:
+    ``pre`` (``pre[0] = top``), ``pos``, ``count``, ``size`` (see
+    :func:`preorder`), ``stamp`` and ``clock`` (see :func:`get`), all int64."""
+    pre = np.empty(m, np.int64)
+    pre[0] = top
+    return (pre, np.empty(m, np.int64), np.empty(m, np.int64), np.empty(m, np.int64), np.zeros(m, np.int64),
+            np.zeros(1, np.int64))
+
+
+@nb.njit(cache=True, nogil=True)
 def preorder(top, kid1, kid2, n_leaves, pre, pos, count, size):
     """Fill the preorder ``pre`` of the nodes hanging from ``top``, each node's
     place ``pos`` in it, its number of nodes ``count`` and leaves ``size``

@@ -24,7 +24,7 @@ algorithms based on the minimum-evolution principle. J. Comput. Biol.
 import numba as nb
 import numpy as np
 
-from .averages import build_table, get, sibling, update_path
+from .averages import build_table, get, sibling, update_path, work_arrays
 
 
 @nb.njit(cache=True, nogil=True)
@@ -57,13 +57,7 @@ def bme_insertion(d, M):
     kid1[top] = n
     kid1[n] = 1
     kid2[n] = 2
-    pre = np.empty(m, np.int64)
-    pos = np.empty(m, np.int64)
-    count = np.empty(m, np.int64)
-    size = np.empty(m, np.int64)
-    stamp = np.zeros(m, np.int64)
-    clock = np.zeros(1, np.int64)
-    pre[0] = top
+    pre, pos, count, size, stamp, clock = work_arrays(m, top)
     k = build_table(M, stamp, clock, parent, kid1, kid2, rows, d, n, pre, pos, count, size, True)
     down = np.zeros(m, np.float64)
     up = np.zeros(m, np.float64)

@@ -40,7 +40,7 @@ method of phylogenetic inference. Mol. Biol. Evol. 10:1073–1095.
 import numba as nb
 import numpy as np
 
-from .averages import build_table, get, sibling, update_path
+from .averages import build_table, get, sibling, update_path, work_arrays
 
 
 @nb.njit(cache=True, nogil=True)
@@ -198,17 +198,11 @@ def nni_search(M, tol, parent, kid1, kid2, top, rows, d, n_leaves, balanced):
     Returns
     -------
     moves, rounds : int
-        Interchanges made; tables built from the matrix.
+        Interchanges made; passes over every branch's fall.
     """
     m = parent.shape[0]
-    pre = np.empty(m, np.int64)
-    pos = np.empty(m, np.int64)
-    count = np.empty(m, np.int64)
-    size = np.empty(m, np.int64)
+    pre, pos, count, size, stamp, clock = work_arrays(m, top)
     gain = np.zeros(m, np.float64)
-    stamp = np.zeros(m, np.int64)
-    clock = np.zeros(1, np.int64)
-    pre[0] = top
     moves = 0
     rounds = 0
     k = build_table(M, stamp, clock, parent, kid1, kid2, rows, d, n_leaves, pre, pos, count, size, balanced, False)

@@ -56,7 +56,7 @@ matrix. J. Mol. Evol. 51:41–47.
 import numba as nb
 import numpy as np
 
-from .averages import build_table, clade_row, get, preorder, side_rows, sibling
+from .averages import build_table, clade_row, get, preorder, side_rows, sibling, work_arrays
 from .nni import nni_search
 
 
@@ -262,23 +262,17 @@ def spr_search(M, tol, parent, kid1, kid2, top, rows, d, n_leaves):
     Returns
     -------
     moves, rounds : int
-        Regrafts made; tables built from the matrix.
+        Moves made (interchanges, then regrafts); passes over every branch or clade.
     """
     m = parent.shape[0]
-    pre = np.empty(m, np.int64)
-    pos = np.empty(m, np.int64)
-    count = np.empty(m, np.int64)
-    size = np.empty(m, np.int64)
+    pre, pos, count, size, stamp, clock = work_arrays(m, top)
     depth = np.empty(m, np.int64)
-    stamp = np.zeros(m, np.int64)
-    clock = np.zeros(1, np.int64)
     sw = np.empty(m, np.int64)
     sxp = np.empty(m, np.float64)
     sh = np.empty(m, np.float64)
     sg = np.empty(m, np.float64)
     ssc = np.empty(m, np.float64)
     near = np.zeros((m, 2), np.float64)
-    pre[0] = top
     # interchanges first: the cheap moves, to the NNI optimum (SPR moves
     # include them), leave the full rounds few regrafts to make
     moves, rounds = nni_search(M, tol, parent, kid1, kid2, top, rows, d, n_leaves, True)

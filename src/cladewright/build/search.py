@@ -153,8 +153,9 @@ def refine_tree_with_info(tree: Tree, dm: DistanceMatrix, refine: str | None = "
     info : dict
         ``refine``, ``criterion``; ``length_before`` and ``length_after``
         (the criterion's tree length of the start and of the result);
-        ``moves`` (interchanges or regrafts made) and ``rounds`` (tables built from the
-        matrix); ``negative_branches`` (fitted lengths < 0).
+        ``moves`` (interchanges or regrafts made) and ``rounds`` (passes in which
+        every branch's or clade's move was looked at afresh); ``negative_branches``
+        (fitted lengths < 0).
 
     References
     ----------

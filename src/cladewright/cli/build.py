@@ -210,7 +210,8 @@ def tree(ctx: click.Context, input_path: str, output: str, method: str, refine: 
     if leaf_table is not None and colour_by is not None:  # read before any work: a bad table stops the run
         from ..io.leaf_table import read_leaf_groups
 
-        groups = read_leaf_groups(leaf_table, colour_by, aln.names if aln is not None else tuple(dm.names))
+        names = aln.names if aln is not None else tuple(dm.names) if dm is not None else ()
+        groups = read_leaf_groups(leaf_table, colour_by, names)
     if aln is not None and model is None:
         model = DEFAULT_MODELS[aln.alphabet]  # the default model follows the alignment's alphabet
     # identical sequences enter the distances and the tree once: the matrix is that of the distinct ones
