@@ -62,13 +62,13 @@ def pack_planes(patterns, order, word_of, bit_of, n_words, n_states):
 
 
 @nb.njit(cache=True, nogil=True, inline="always")
-def _row_counts(planes, valid, word_weight, i, p0, kind, out):
-    """Counts of the pairs (i, j), j > i, into out[:, p0 + j - i - 1].
+def _row_counts(planes, valid, word_weight, i, j0, p0, kind, out):
+    """Counts of the pairs (i, j), j >= j0 (j0 > i), into out[:, p0 + j - j0].
     For :data:`TRANSITIONS`, ``planes`` is the two-bit form of
     :func:`transition_planes`."""
     n, n_words, k = planes.shape
-    for j in range(i + 1, n):
-        p = p0 + j - i - 1
+    for j in range(j0, n):
+        p = p0 + j - j0
         if kind == IDENTITY:
             shared = 0
             same = 0
@@ -183,7 +183,7 @@ def pair_counts(planes, valid, word_weight, r0, r1, kind, out):
     base = pairs_before(r0, n)
     for ii in nb.prange(r1 - r0):
         i = r0 + ii
-        _row_counts(planes, valid, word_weight, i, pairs_before(i, n) - base, kind, out)
+        _row_counts(planes, valid, word_weight, i, i + 1, pairs_before(i, n) - base, kind, out)
 
 
 @nb.njit(cache=True, nogil=True)
@@ -193,7 +193,17 @@ def pair_counts_serial(planes, valid, word_weight, r0, r1, kind, out):
     n = planes.shape[0]
     base = pairs_before(r0, n)
     for i in range(r0, r1):
-        _row_counts(planes, valid, word_weight, i, pairs_before(i, n) - base, kind, out)
+        _row_counts(planes, valid, word_weight, i, i + 1, pairs_before(i, n) - base, kind, out)
+
+
+@nb.njit(cache=True, nogil=True)
+def cross_counts(planes, valid, word_weight, head, kind, out):
+    """Counts of the pairs (i, j), i < head <= j, into ``out[:, i (n − head) + j − head]``
+    (rows against columns only, for an off-diagonal tile of stacked rows), on
+    the calling thread."""
+    n = planes.shape[0]
+    for i in range(head):
+        _row_counts(planes, valid, word_weight, i, head, i * (n - head), kind, out)
 
 
 @nb.njit(cache=True, nogil=True)

@@ -14,8 +14,8 @@ Every value is the one :func:`cladewright.distance_matrix` gives: the same
 counting kernels count the same pairs, the same formula runs on the counts,
 and the whole alignment's base frequencies (or fitted likelihood model) are
 computed once, before the tiles. A tile of rows I and columns J counts the
-pairs of the rows I + J stacked (the rows I against themselves as well, which
-an off-diagonal tile does not need: about a third of its counting is spare).
+rows I against the rows J only (the likelihood models, whose pairs come in
+blocks, still compute the pairs of I + J stacked and keep those of I x J).
 
 Saturation, a rule over the whole matrix (the cap is twice the largest defined
 distance), is applied in a last pass: tiles hold undefined distances as
@@ -92,8 +92,13 @@ def compute_tile(job: TileJob, ti: int, tj: int) -> tuple[int, int, NDArray[np.f
         if job.fitted is not None:
             d, shared = _likelihood_pairs(job, rows)
         else:
-            d, shared = _formula_pairs(job, rows, head)
-    if ti == tj:
+            d, shared = _formula_pairs(job, rows, head, cross=ti != tj)
+    if ti != tj and job.fitted is None:  # rows against columns, row-major already
+        block = d.reshape(head, size - head)
+        gi, gj = np.broadcast_to(np.arange(a0, a1)[:, None], block.shape), \
+            np.broadcast_to(np.arange(b0, b1)[None, :], block.shape)
+        flat = np.arange(block.size).reshape(block.shape)
+    elif ti == tj:
         i, j = np.triu_indices(size, 1)
         block = np.zeros((size, size), dtype=job.dtype)
         block[i, j] = d
@@ -111,15 +116,20 @@ def compute_tile(job: TileJob, ti: int, tj: int) -> tuple[int, int, NDArray[np.f
     return ti, tj, block, empty
 
 
-def _formula_pairs(job: TileJob, rows: NDArray[np.int64], head: int) -> tuple[NDArray[Any], NDArray[Any]]:
-    """Condensed distances and shared sites of the pairs (i, j), i < head, of the stacked rows."""
+def _formula_pairs(job: TileJob, rows: NDArray[np.int64], head: int, cross: bool
+                   ) -> tuple[NDArray[Any], NDArray[Any]]:
+    """Distances and shared sites of the pairs (i, j), i < j, of the stacked rows (condensed), or with
+    ``cross`` of the rows i < head against the rows j >= head (row-major)."""
     assert job.planes is not None and job.valid is not None
     planes = np.ascontiguousarray(job.planes[rows])
     valid = np.ascontiguousarray(job.valid[rows])
     size = rows.size
-    m = head * size - head * (head + 1) // 2
+    m = head * (size - head) if cross else size * (size - 1) // 2
     buf = np.empty((kc.N_COUNTS[job.count_kind], max(1, m)), dtype=np.int64)
-    kc.pair_counts_serial(planes, valid, job.word_weight, 0, head, job.count_kind, buf)
+    if cross:
+        kc.cross_counts(planes, valid, job.word_weight, head, job.count_kind, buf)
+    else:
+        kc.pair_counts_serial(planes, valid, job.word_weight, 0, size, job.count_kind, buf)
     c = count_dict(buf[:, :m], job.count_kind, serial=True)
     pi: Any = job.pi
     if job.count_kind == kc.COMPOSITION:
