@@ -36,6 +36,7 @@ from .choices import REFINEMENTS
 from .build.criteria import fit_lengths, fit_lengths_with_info, tree_length
 from .build.weighted import weighted_fit
 from .pipeline import tree_from_alignment
+from .store_tree import tree_from_store
 from .polytomies import attach_identical, collapse_zero_branches, resolve_polytomies
 
 # Rooting: midpoint or outgroup.
@@ -71,7 +72,7 @@ __all__ = [
     # identical sequences
     "identical_groups", "distinct_sequences",
     # trees
-    "build_tree", "build_tree_with_info", "METHODS", "fit_statistic", "tree_from_alignment",
+    "build_tree", "build_tree_with_info", "METHODS", "fit_statistic", "tree_from_alignment", "tree_from_store",
     "refine_tree", "refine_tree_with_info", "REFINEMENTS",
     "fit_lengths", "fit_lengths_with_info", "tree_length", "weighted_fit",
     "collapse_zero_branches", "resolve_polytomies", "attach_identical",

@@ -35,7 +35,7 @@ if TYPE_CHECKING:
     from .tree import Tree
 
 __all__ = ["tree_from_alignment", "distinct_tree", "split_identical", "finish_tree", "zero_tolerance",
-           "identical_info", "run_warnings", "LITTLE_DATA"]
+           "identical_info", "run_warnings", "few_distinct_tree", "LITTLE_DATA"]
 
 #: Sequences with unambiguous states at fewer than this share of the sites are warned about.
 LITTLE_DATA = 0.5
@@ -177,7 +177,6 @@ def _few_distinct(distinct: Alignment, model: str | None, gamma: float | None, g
                   gamma_categories: int | None = None) -> tuple[Tree, dict[str, Any], DistanceMatrix]:
     """The tree of one or two distinct sequences (their groups added later)."""
     from .matrix import DistanceMatrix
-    from .tree import Tree
 
     m = str(method).lower()
     if m not in METHODS:
@@ -187,15 +186,27 @@ def _few_distinct(distinct: Alignment, model: str | None, gamma: float | None, g
         dm = DistanceMatrix(names, np.zeros((1, 1), dtype=dtype), validate=False, dtype=dtype,
                             info={"model": resolve_model(model, distinct.alphabet).name, "gamma": gamma,
                                   "gaps": gaps, "freqs": None, "saturated": 0, "cap": None})
-        tree = Tree([-1], [np.nan], names, rooted=m in LINKAGE_METHODS)
     else:
         dm = distance_matrix(distinct, model, gamma, gaps, freqs, saturated=saturated, weights=weights,
                              dtype=dtype, gamma_categories=gamma_categories)
-        half = float(dm.values[0, 1]) / 2.0
-        tree = Tree([2, 2, -1], [half, half, np.nan], names, rooted=m in LINKAGE_METHODS)
-    info = {"method": m, "negative_branches": 0, "fit_name": None, "fit_value": None}
+    tree, info = few_distinct_tree(names, dm.values, m)
     info.update(dm.info)
     return tree, info, dm
+
+
+def few_distinct_tree(names: Sequence[str], values: NDArray[np.floating], method: str
+                      ) -> tuple[Tree, dict[str, Any]]:
+    """The tree of one or two distinct sequences (``values`` their 1 x 1 or 2 x 2 distances): a
+    single leaf, or one branch halved, rooted for a linkage method; their groups are added later."""
+    from .tree import Tree
+
+    m = str(method).lower()
+    if len(names) == 1:
+        tree = Tree([-1], [np.nan], names, rooted=m in LINKAGE_METHODS)
+    else:
+        half = float(values[0, 1]) / 2.0
+        tree = Tree([2, 2, -1], [half, half, np.nan], names, rooted=m in LINKAGE_METHODS)
+    return tree, {"method": m, "negative_branches": 0, "fit_name": None, "fit_value": None}
 
 
 def run_warnings(info: dict[str, Any], alignment: Alignment | None = None) -> list[CladewrightWarning]:

@@ -22,7 +22,7 @@ LAYERS = {
     2: ["alignment", "matrix", "tree"],                          # the three nouns
     3: ["io.readers", "io.__init__"],                            # files -> nouns
     4: ["distances", "build", "support", "polytomies", "rooting", "clusters", "memory", "paths", "interop"],
-    5: ["pipeline", "resampling"],                               # alignment -> tree -> support
+    5: ["pipeline", "store_tree", "resampling"],                 # alignment -> tree -> support
     6: ["cli", "report", "draw", "textdraw"],                    # the application
     7: ["__init__"],                                             # the public API sees everything
 }

@@ -59,3 +59,14 @@ def condense_upper(D, out):
     for i in range(n - 1):
         out[k:k + n - 1 - i] = D[i, i + 1:]
         k += n - 1 - i
+
+
+@nb.njit(cache=True, nogil=True)
+def condense_rows(block, r0, n, out):
+    """Rows r0.. of a square matrix (``block``, (b, n)) into their places in
+    the condensed upper triangle ``out`` (see :func:`condense_upper`), for a
+    triangle filled a block of rows at a time."""
+    for a in range(block.shape[0]):
+        i = r0 + a
+        k = pairs_before(i, n)
+        out[k:k + n - 1 - i] = block[a, i + 1:]

@@ -10,20 +10,20 @@ Science 155:279–284 (percent standard deviation).
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Callable
 
 import numpy as np
-from numpy.typing import ArrayLike
+from numpy.typing import ArrayLike, NDArray
 
 from ..choices import LINKAGE_METHODS, METHODS
 from ..errors import InputError
-from .._kernels.patristic import upper_pearson, upper_relative_squares
+from .._kernels.patristic import fit_sums, leaf_intervals, patristic_rows, upper_pearson, upper_relative_squares
 
 if TYPE_CHECKING:
     from ..matrix import DistanceMatrix
     from ..tree import Tree
 
-__all__ = ["fit_statistic", "cophenetic_correlation", "percent_standard_deviation",
+__all__ = ["fit_statistic", "fit_from_rows", "cophenetic_correlation", "percent_standard_deviation",
            "COPHENETIC", "PSD"]
 
 COPHENETIC = "cophenetic correlation"
@@ -126,3 +126,52 @@ def fit_statistic(tree: Tree, dm: DistanceMatrix, method: str | None = None) -> 
     if linkage:
         return COPHENETIC, cophenetic_correlation(P, values)
     return PSD, percent_standard_deviation(P, values)
+
+
+def fit_from_rows(tree: Tree, rows: Callable[[int, int], NDArray[np.floating]], block: int,
+                  method: str) -> tuple[str, float]:
+    """:func:`fit_statistic` with the distances read a block of rows at a time,
+    for a matrix that is not held in memory (a store): the same value, bit
+    for bit, with no n x n array of distances or path lengths.
+
+    Parameters
+    ----------
+    tree : cladewright.tree.Tree
+        Leaves 0..n−1 in the matrix's order.
+    rows : callable
+        ``rows(r0, r1)`` gives rows r0..r1 of the distances, (r1 − r0, n).
+    block : int
+        Rows per call.
+    method : str
+        The method that built the tree (linkage trees: cophenetic correlation,
+        read twice, as it needs the means first; the others: PSD, read once).
+
+    References
+    ----------
+    Sokal & Rohlf (1962); Fitch & Margoliash (1967).
+    """
+    n = tree.n_leaves
+    parent = np.ascontiguousarray(tree.parent)
+    length = np.nan_to_num(np.asarray(tree.length, dtype=np.float64), nan=0.0)
+    depth, seq, lo, hi = leaf_intervals(parent, length, np.ascontiguousarray(tree.postorder()), n)
+    linkage = str(method).lower() in LINKAGE_METHODS
+
+    def sweep(mx: float, my: float) -> NDArray[np.float64]:
+        sums = np.zeros(8)
+        for r0 in range(0, n, block):
+            r1 = min(n, r0 + block)
+            d = np.ascontiguousarray(rows(r0, r1), dtype=np.float64)
+            fit_sums(d, patristic_rows(parent, depth, seq, lo, hi, r0, r1), r0, sums, mx, my)
+        return sums
+
+    first = sweep(0.0, 0.0)
+    if not linkage:
+        return PSD, float(100.0 * np.sqrt(first[6] / first[7])) if first[7] else float("nan")
+    if first[0] < 2.0:
+        return COPHENETIC, float("nan")
+    second = sweep(first[1] / first[0], first[2] / first[0])
+    sxx, syy, sxy = second[3], second[4], second[5]
+    # upper_pearson's order: distances are its Y, path lengths its X
+    if sxx <= 0.0 or syy <= 0.0:
+        return COPHENETIC, float("nan")
+    return COPHENETIC, float(sxy / np.sqrt(syy * sxx))

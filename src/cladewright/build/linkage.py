@@ -25,7 +25,7 @@ from ..errors import InputError
 from .._kernels.linkage import nn_chain_linkage
 from .._kernels.matrix import condense_upper
 
-__all__ = ["LanceWilliams", "LINKAGE_METHODS", "linkage_arrays"]
+__all__ = ["linkage_condensed", "LanceWilliams", "LINKAGE_METHODS", "linkage_arrays"]
 
 
 class LanceWilliams(NamedTuple):
@@ -103,7 +103,6 @@ def linkage_arrays(values: ArrayLike, method: str, sizes: ArrayLike | None = Non
     >>> h[-2:].tolist()
     [1.0, 3.0]
     """
-    row = LINKAGE_METHODS[method]
     square = np.ascontiguousarray(values, dtype=working_dtype(values))
     n = square.shape[0]
     # Allocated here rather than in the kernel so that numpy's large-array
@@ -112,6 +111,16 @@ def linkage_arrays(values: ArrayLike, method: str, sizes: ArrayLike | None = Non
     C = np.empty(n * (n - 1) // 2, square.dtype)
     condense_upper(square, C)
     del square
+    return linkage_condensed(C, n, method, sizes)
+
+
+def linkage_condensed(C: NDArray[np.floating], n: int, method: str, sizes: ArrayLike | None = None
+                      ) -> tuple[NDArray[np.int64], NDArray[np.float64], NDArray[np.float64]]:
+    """:func:`linkage_arrays` on the upper triangle of the matrix, condensed row by row
+    (float64 or float32, n (n − 1) / 2 entries, see :func:`cladewright._kernels.matrix.condense_upper`),
+    used as the work space and overwritten: for a caller that fills the triangle itself, e.g. from a store,
+    with no square matrix in memory."""
+    row = LINKAGE_METHODS[method]
     sizes = np.ones(n, np.int64) if sizes is None else np.array(sizes, dtype=np.int64).reshape(-1)
     if sizes.shape != (n,) or (n and sizes.min() < 1):
         raise InputError(f"sizes must hold {n} whole numbers >= 1, one per taxon of the matrix")

@@ -25,7 +25,7 @@ __all__ = ["nj_arrays"]
 
 
 def nj_arrays(values: ArrayLike, bionj: bool = False, list_length: int = LIST_LENGTH,
-              n_classes: int = N_CLASSES) -> tuple[NDArray[np.int64], NDArray[np.float64]]:
+              n_classes: int = N_CLASSES, overwrite: bool = False) -> tuple[NDArray[np.int64], NDArray[np.float64]]:
     """Neighbour joining (or BIONJ) on a distance matrix.
 
     Parameters
@@ -39,6 +39,10 @@ def nj_arrays(values: ArrayLike, bionj: bool = False, list_length: int = LIST_LE
     list_length, n_classes : int
         Sorted entries kept per row and R class, and the number of R classes,
         of the bounded search (speed only: the tree is the same).
+    overwrite : bool
+        Use ``values`` itself as the work space when it is a C-ordered float64
+        or float32 array (its contents are then lost): no copy, for callers
+        that filled the matrix for this purpose.
 
     Returns
     -------
@@ -70,5 +74,7 @@ def nj_arrays(values: ArrayLike, bionj: bool = False, list_length: int = LIST_LE
     >>> l[:2].tolist()
     [1.0, 2.0]
     """
-    D = np.array(values, dtype=working_dtype(values), order="C", copy=True)
+    own = overwrite and isinstance(values, np.ndarray) and values.flags.c_contiguous and values.flags.writeable \
+        and values.dtype in (np.float32, np.float64)
+    D = values if own else np.array(values, dtype=working_dtype(values), order="C", copy=True)
     return nj_kernel(D, bool(bionj), int(list_length), int(n_classes))

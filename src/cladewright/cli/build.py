@@ -8,7 +8,7 @@ from __future__ import annotations
 import os
 import secrets
 import time
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import click
 
@@ -18,8 +18,9 @@ from ..distances import DEFAULT_MODELS, MODELS
 from ..errors import InputError
 from ..matrix import DistanceMatrix
 from ..memory import check_fits
-from .app import (check_output_not_input, guarded, main, model_options, output_format, output_line, root_option,
-                  support_option, tree_kind, tree_output_options, write_tree)
+from .wording import refuse_model_options
+from .app import (check_output_not_input, guarded, main, model_options, output_format, output_line,
+                  root_option, support_option, tree_kind, tree_output_options, write_tree)
 from .summary import distance_summary, shown_warnings, support_words, tree_summary
 
 if TYPE_CHECKING:
@@ -96,6 +97,16 @@ def _tiled(obj: Context, alignment: str, output: str, model: str | None, gamma: 
     dm = SimpleNamespace(info=info)  # the summary reads only the run's facts
     obj.say(distance_summary(aln, dm, time.perf_counter() - start) + "\n"  # type: ignore[arg-type]
             + output_line(output, "Zarr store"))
+
+
+def store_facts(path: str) -> dict[str, Any] | None:
+    """The names and the number of distinct rows of a finished distance store, None for any other input."""
+    from ..io.store import is_store, store_attributes
+
+    if not is_store(path):
+        return None
+    attrs, _, (m, _) = store_attributes(path)
+    return {"names": attrs["names"], "distinct": m}
 
 
 def read_input(path: str, alphabet: str | None, precision: str = "double"
@@ -205,25 +216,41 @@ def tree(ctx: click.Context, input_path: str, output: str, method: str, refine: 
     if replicates and seed is None:
         seed = secrets.randbelow(2**31)  # drawn here, so that the summary and the report can give it
     start = time.perf_counter()
-    aln, dm = read_input(input_path, alphabet, precision)
+    # a store is read by the tree builder itself, straight into its work space (no second copy)
+    stored = store_facts(input_path)
+    aln, dm = (None, None) if stored else read_input(input_path, alphabet, precision)
+    if aln is None:
+        refuse_model_options(ctx, input_path)
     groups = None
     if leaf_table is not None and colour_by is not None:  # read before any work: a bad table stops the run
         from ..io.leaf_table import read_leaf_groups
 
-        names = aln.names if aln is not None else tuple(dm.names) if dm is not None else ()
+        names = aln.names if aln is not None else tuple(dm.names) if dm is not None else \
+            tuple(stored["names"]) if stored else ()
         groups = read_leaf_groups(leaf_table, colour_by, names)
     if aln is not None and model is None:
         model = DEFAULT_MODELS[aln.alphabet]  # the default model follows the alignment's alphabet
     # identical sequences enter the distances and the tree once: the matrix is that of the distinct ones
     if aln is not None:
         n_taxa = split_identical(aln, model)[0].n_taxa
+    elif stored:
+        n_taxa = int(stored["distinct"])
     else:
         assert dm is not None  # read_input gives an alignment or a matrix
         n_taxa = len(dm.names)
     check_fits(n_taxa, method=method, precision=precision, refine=refine,
                workers=(workers or os.cpu_count() or 1) if replicates and scheduler is None else 0)
     boot: BootstrapResult | None = None
-    if replicates:
+    if stored and not replicates:
+        from ..store_tree import tree_from_store
+
+        result, info = tree_from_store(input_path, method, negative, dtype=PRECISIONS[precision], refine=refine,
+                                       criterion=criterion)
+        if report_path:  # the report shows the matrix
+            from ..io.readers import open_store
+
+            dm = open_store(input_path)
+    elif replicates:
         if aln is None:
             raise InputError("bootstrap support needs an alignment, not a distance matrix; give the alignment "
                              "or drop --replicates", source=input_path)
@@ -259,7 +286,7 @@ def tree(ctx: click.Context, input_path: str, output: str, method: str, refine: 
         result = resolve_polytomies(result)
     write_tree(result, output, fmt, digits, support_digits)
     seconds = time.perf_counter() - start
-    summary = tree_summary(aln, dm, info, boot, seconds, info["warnings"], measure)
+    summary = tree_summary(aln, None if stored else dm, info, boot, seconds, info["warnings"], measure)
     outputs = [output_line(output, tree_kind(output, fmt))]
     if save_replicates:
         outputs.append(output_line(save_replicates, f"Newick, {replicates} replicate trees"))

@@ -12,8 +12,9 @@ from typing import TYPE_CHECKING
 import click
 
 from ..choices import CRITERIA, PRECISIONS
-from .app import (check_output_not_input, guarded, main, model_options, output_line, tree_kind, tree_output_options,
-                  write_tree)
+from .wording import refuse_model_options
+from .app import (check_output_not_input, guarded, main, model_options, output_line,
+                  tree_kind, tree_output_options, write_tree)
 from .build import MODEL_HELP, read_input
 
 if TYPE_CHECKING:
@@ -49,6 +50,8 @@ def lengths(obj: Context, tree_path: str, input_path: str, output: str, criterio
     if not trees:
         raise InputError("holds no tree; give a Newick or NEXUS file with at least one tree", source=tree_path)
     aln, dm = read_input(input_path, alphabet, precision)
+    if aln is None:
+        refuse_model_options(click.get_current_context(), input_path)
     if dm is None:
         assert aln is not None
         dm = distance_matrix(aln, model=model, gamma=gamma, gaps=gaps, freqs=freqs, saturated=saturated,

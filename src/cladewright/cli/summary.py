@@ -71,7 +71,7 @@ def support_words(word: str) -> str:
     return f"{word} ({SUPPORT_WORDS[word].upper()})"
 
 
-def tree_summary(aln: Alignment | None, dm: DistanceMatrix, info: Mapping[str, Any], boot: BootstrapResult | None,
+def tree_summary(aln: Alignment | None, dm: DistanceMatrix | None, info: Mapping[str, Any], boot: BootstrapResult | None,
                  seconds: float, warnings: Iterable[CladewrightWarning], measure: str = "proportion") -> str:
     """``warnings``: the run's warnings as :func:`shown_warnings` gives them; ``measure``: the support
     measure in the command line's word."""
@@ -79,6 +79,9 @@ def tree_summary(aln: Alignment | None, dm: DistanceMatrix, info: Mapping[str, A
     if aln is not None:
         lines.append(f"taxa      {aln.n_taxa}")
         lines.append(f"sites     {aln.n_sites} ({aln.n_patterns} distinct patterns, gaps {info.get('gaps')})")
+        lines.append(model_line(info))
+    elif dm is None:  # a tree straight from a distance store
+        lines.append(f"taxa      {info['taxa']} (distance store, {info['distinct']} distinct)")
         lines.append(model_line(info))
     else:
         lines.append(f"taxa      {len(dm.names)} (distance matrix)")

@@ -9,7 +9,9 @@ from __future__ import annotations
 
 import re
 
-__all__ = ["PARAMETER_OPTIONS", "as_options"]
+import click
+
+__all__ = ["PARAMETER_OPTIONS", "as_options", "ALIGNMENT_ONLY", "refuse_model_options"]
 
 #: How the library spells a parameter in its messages, and the option of this command line that sets it.
 #: The library names its own parameters (``saturated="cap"``); a user of the command line is shown the
@@ -47,3 +49,20 @@ def as_options(text: object) -> str:
     for spelling, option in PARAMETER_OPTIONS:
         text = spelling.sub(option, text) if isinstance(spelling, re.Pattern) else text.replace(spelling, option)
     return text
+
+
+#: The options of :func:`model_options` (and --gamma-categories) that only say how an alignment's distances
+#: are computed, by parameter name: given with a distance matrix they would be silently ignored.
+ALIGNMENT_ONLY = {"model": "--model", "gamma": "--gamma-shape", "gaps": "--gaps", "freqs": "--freqs",
+                  "saturated": "--saturated", "alphabet": "--alphabet", "gamma_categories": "--gamma-categories"}
+
+
+def refuse_model_options(ctx: click.Context, input_path: str) -> None:
+    """A usage error for an option of :data:`ALIGNMENT_ONLY` given with a distance matrix or store, whose
+    distances were computed already (with settings of their own)."""
+    from click.core import ParameterSource
+
+    for name, flag in ALIGNMENT_ONLY.items():
+        if name in ctx.params and ctx.get_parameter_source(name) not in (ParameterSource.DEFAULT, None):
+            raise click.UsageError(f"{flag} sets how distances are computed from an alignment, but {input_path} "
+                                   "holds distances already; drop it, or give the alignment")

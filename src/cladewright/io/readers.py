@@ -141,7 +141,7 @@ def open_store(path: str | os.PathLike[str]) -> DistanceMatrix:
     --------
     See :func:`cladewright.distances.tiled.tiled_distances`.
     """
-    from .store import read_store_rows, store_attributes
+    from .store import matrix_info, read_store_rows, store_attributes
 
     attrs, group, (m, _) = store_attributes(path)
     tile = int(attrs["tile"])
@@ -152,8 +152,7 @@ def open_store(path: str | os.PathLike[str]) -> DistanceMatrix:
         values[r0:r0 + tile] = read_store_rows(path, r0, r0 + tile)
     if group.size != m or np.any(group != np.arange(m)):
         values = values[np.ix_(group, group)]
-    info = {k: v for k, v in attrs.items() if k not in ("names", "kind", "complete", "n_rows", "tile",
-                                                          "input_sha256", "dtype", "alphabet")}
+    info = matrix_info(attrs)
     if info.get("saturated"):
         bad = ~np.isfinite(values)
         info["saturated"] = int(np.count_nonzero(np.triu(bad, 1)))

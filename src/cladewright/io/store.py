@@ -33,7 +33,7 @@ from numpy.typing import NDArray
 from ..errors import InputError
 
 __all__ = ["STORE_KIND", "is_store", "create_store", "open_for_resume", "write_tile", "mark_done", "missing_tiles",
-           "finish_store", "store_attributes", "read_store_rows", "tile_facts"]
+           "finish_store", "store_attributes", "read_store_rows", "tile_facts", "matrix_info"]
 
 #: The attribute that marks a directory as a cladewright distance store.
 STORE_KIND = "cladewright distance matrix, tiled"
@@ -169,3 +169,10 @@ def read_store_rows(path: str | os.PathLike[str], r0: int, r1: int) -> NDArray[n
     zarr = _zarr()
     root = zarr.open_group(os.fspath(path), mode="r")
     return np.asarray(root["distances"][r0:r1, :])
+
+
+def matrix_info(attrs: Mapping[str, Any]) -> dict[str, Any]:
+    """The facts of a store that a distance matrix's ``info`` carries (model, gamma, gaps, frequencies,
+    saturated pairs, cap, ...), without the store's own bookkeeping."""
+    return {k: v for k, v in attrs.items() if k not in ("names", "kind", "complete", "n_rows", "tile",
+                                                       "input_sha256", "dtype", "alphabet")}
