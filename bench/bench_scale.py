@@ -61,16 +61,19 @@ def step(args):
     return facts["seconds"], facts["peak_gib"]
 
 
-def end_to_end(n, sites, tile, workdir):
+def end_to_end(n, sites, tile, workdir, reuse=False):
     fasta = os.path.join(workdir, "a.fasta")
     store = os.path.join(workdir, "m.zarr")
-    t = time.perf_counter()
-    write_fasta(fasta, n, sites, seed=n)
-    print(f"simulated {n:,} x {sites:,} in {time.perf_counter() - t:.0f} s", flush=True)
     rows = []
-    for label, args in (
-            ("distances K2P -> store", ["distances", fasta, "-o", store, "--precision", "single",
-                                        "--tile-size", str(tile)]),
+    if reuse and os.path.isdir(store):  # the store of an earlier run in this --workdir: trees only
+        steps = ()
+    else:
+        t = time.perf_counter()
+        write_fasta(fasta, n, sites, seed=n)
+        print(f"simulated {n:,} x {sites:,} in {time.perf_counter() - t:.0f} s", flush=True)
+        steps = (("distances K2P -> store", ["distances", fasta, "-o", store, "--precision", "single",
+                                             "--tile-size", str(tile)]),)
+    for label, args in steps + (
             ("NJ from the store", ["tree", store, "-o", os.path.join(workdir, "nj.nwk"), "--method", "nj"]),
             ("UPGMA from the store", ["tree", store, "-o", os.path.join(workdir, "upgma.nwk"),
                                       "--method", "upgma"])):
@@ -172,11 +175,13 @@ def main():
     ap.add_argument("--tile", type=int, default=2048)
     ap.add_argument("--workdir", default=None, help="Where the alignment and stores go (default: a temporary "
                                                      "folder, removed at the end).")
+    ap.add_argument("--reuse", action="store_true", help="end-to-end: build the trees from the store an earlier "
+                                                          "run left in --workdir")
     args = ap.parse_args()
     workdir = args.workdir or tempfile.mkdtemp(prefix="cw-scale-")
     try:
         if args.what == "end-to-end":
-            text = end_to_end(args.n or 50_000, args.sites, args.tile, workdir)
+            text = end_to_end(args.n or 50_000, args.sites, args.tile, workdir, args.reuse)
         elif args.what == "cluster":
             text = cluster(args.n or 20_000, args.sites, args.tile, workdir)
         else:

@@ -15,6 +15,7 @@ replicates is checked the same way.
 from __future__ import annotations
 
 import os
+from typing import Any
 
 from .choices import JOINING_METHODS, LINKAGE_METHODS
 from .errors import InputError
@@ -60,7 +61,7 @@ def _matrices(method: str | None) -> float:
 
 
 def estimate_bytes(n: int, *, method: str | None = None, precision: str = "double", workers: int = 0,
-                   refine: str | None = None) -> int:
+                   refine: str | None = None, stored: bool = False) -> int:
     """Peak bytes of a run on ``n`` taxa.
 
     Parameters
@@ -77,12 +78,18 @@ def estimate_bytes(n: int, *, method: str | None = None, precision: str = "doubl
         A topology search after the start holds the table of subtree
         averages, (2n)^2 numbers (Desper & Gascuel 2002; float32 above
         :data:`TABLE_DOUBLE_BYTES`), once the start's own working copies are freed.
+    stored : bool
+        The matrix comes from a distance store: nj, bionj and the linkage
+        methods read it straight into their work space, so only that is held
+        (:func:`cladewright.store_tree.tree_from_store`).
     """
     item = 8 if precision == "double" else 4
     square = n * n * item
     work = square * _matrices(method)
     if refine not in (None, "none") or str(method).lower() == "bme":
         work = max(work, 4 * n * n * table_itemsize(n))
+    if stored and refine in (None, "none") and str(method).lower() != "bme" and method is not None:
+        return int(PROCESS_BASE + work)
     main = PROCESS_BASE + DISTANCE_WORK + square + work
     per_worker = DISTANCE_WORK + square + work  # threads of the same process
     return int(main + workers * per_worker)
@@ -157,24 +164,31 @@ def check_replicates_fit(n: int, replicates: int, *, method: str | None = None, 
 
 
 def check_fits(n: int, *, method: str | None = None, precision: str = "double", workers: int = 0,
-               available: int | None = None, refine: str | None = None) -> None:
-    """Raise :class:`InputError` when the run cannot fit, naming what would."""
+               available: int | None = None, refine: str | None = None, stored: bool = False) -> None:
+    """Raise :class:`InputError` when the run cannot fit, naming what would (``stored``: see
+    :func:`estimate_bytes`)."""
     available = available_bytes() if available is None else available
     if available is None:
         return
-    need = estimate_bytes(n, method=method, precision=precision, workers=workers, refine=refine)
+
+    def need_for(**change: Any) -> int:
+        settings = dict(method=method, precision=precision, workers=workers, refine=refine, stored=stored)
+        settings.update(change)
+        return estimate_bytes(n, **settings)
+
+    need = need_for()
     if need <= available:
         return
     # the fixes in the library's terms (parameters); the command line shows them as its options
     fixes = []
-    if precision == "double" and estimate_bytes(n, method=method, precision="single", workers=workers, refine=refine) <= available:
+    if precision == "double" and need_for(precision="single") <= available:
         fixes.append('precision="single"')
     for w in range(workers - 1, 0, -1):
-        if estimate_bytes(n, method=method, precision=precision, workers=w, refine=refine) <= available:
+        if need_for(workers=w) <= available:
             fixes.append(f"workers={w}")
             break
     leaner = LEANER.get(str(method).lower()) if method else None
-    if leaner and estimate_bytes(n, method=leaner, precision=precision, workers=workers, refine=refine) <= available:
+    if leaner and need_for(method=leaner) <= available:
         fixes.append(f'method="{leaner}"')
     hint = ("; " + " or ".join(fixes) + " would fit") if fixes else "; use a machine with more memory or fewer taxa"
     raise InputError(f"{n} taxa need about {_gib(need)} of memory but {_gib(available)} is available{hint}")

@@ -106,7 +106,7 @@ def store_facts(path: str) -> dict[str, Any] | None:
     if not is_store(path):
         return None
     attrs, _, (m, _) = store_attributes(path)
-    return {"names": attrs["names"], "distinct": m}
+    return {"names": attrs["names"], "distinct": m, "dtype": attrs["dtype"]}
 
 
 def read_input(path: str, alphabet: str | None, precision: str = "double"
@@ -238,8 +238,10 @@ def tree(ctx: click.Context, input_path: str, output: str, method: str, refine: 
     else:
         assert dm is not None  # read_input gives an alignment or a matrix
         n_taxa = len(dm.names)
-    check_fits(n_taxa, method=method, precision=precision, refine=refine,
-               workers=(workers or os.cpu_count() or 1) if replicates and scheduler is None else 0)
+    # a float32 store is worked on in float32 (as a float32 matrix is)
+    check_fits(n_taxa, method=method, precision="single" if stored and stored["dtype"] == "float32" else precision,
+               refine=refine, workers=(workers or os.cpu_count() or 1) if replicates and scheduler is None else 0,
+               stored=bool(stored))
     boot: BootstrapResult | None = None
     if stored and not replicates:
         from ..store_tree import tree_from_store
