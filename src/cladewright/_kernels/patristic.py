@@ -163,19 +163,16 @@ def patristic_rows(parent, depth, seq, lo, hi, r0, r1):
     out = np.zeros((r1 - r0, n), np.float64)
     for i in range(r0, r1):
         row = out[i - r0]
-        pi = lo[i]
         c = i
         p = parent[i]
         while p >= 0:
             twice = 2.0 * depth[p]
-            for s in range(lo[p], hi[p]):
-                if lo[c] <= s < hi[c]:
-                    continue
+            for s in range(lo[p], lo[c]):  # leaves before the child's interval: earlier in postorder
                 b = seq[s]
-                if s > pi:
-                    row[b] = (depth[i] - twice) + depth[b]
-                else:
-                    row[b] = (depth[b] - twice) + depth[i]
+                row[b] = (depth[b] - twice) + depth[i]
+            for s in range(hi[c], hi[p]):  # and after it
+                b = seq[s]
+                row[b] = (depth[i] - twice) + depth[b]
             c = p
             p = parent[p]
     return out
