@@ -29,6 +29,12 @@ older rows are not updated (see :func:`.nj_lists.dist`). Time is O(n^2) in
 practice (O(n^3) at worst, as the plain scan); memory is the n x n matrix
 (two for BIONJ) plus n x G x (K + 2) list entries.
 
+Far from tree-like (Euclidean distances of points in ten dimensions, say),
+the lists run out: most rows are rebuilt or read in full at every join, ten
+times the time of a tree-like matrix and more. When that goes on for two
+windows of joins, the search moves for good to lower bounds kept per row
+between joins (:mod:`.nj_rows`), where the same pair is found.
+
 References
 ----------
 Saitou, N. & Nei, M. (1987) Mol. Biol. Evol. 4:406–425.
@@ -44,9 +50,12 @@ import numpy as np
 from .matrix import mirror_upper
 from .nj_lists import (begin_row, better, dist, end_row, fill_row, insert, new_lists,
                        read_list, skip_joined)
+from .nj_rows import C0, mirror_rows, row_search
 
 LIST_LENGTH = 8    # entries kept per row and class (speed only)
 N_CLASSES = 8      # classes of R (speed only; 8 measured best at n = 2,000 and 10,000)
+ROW_SWITCH = 1 / 16  # lists rebuilt or rows read in full per join, over r, before row bounds take over
+WINDOW = 64          # joins over which that is counted, in two windows running (both speed only)
 
 
 @nb.njit(cache=True)
@@ -150,7 +159,7 @@ def _search(D, born, live, r, node, slot, lab, R, L, rmax, rowlb, cand, slow):
 
 
 @nb.njit(cache=True, nogil=True)  # bootstrap replicates build their trees side by side on threads
-def nj_kernel(D, bionj, K, G):
+def nj_kernel(D, bionj, K, G, switch=ROW_SWITCH):
     """Join the closest pair by the NJ criterion until three clusters remain.
 
     Parameters
@@ -163,6 +172,13 @@ def nj_kernel(D, bionj, K, G):
     K, G : int
         List length and number of R classes of the search (speed only, not
         the result).
+    switch : float
+        The search moves from the lists to the row bounds of
+        :mod:`.nj_rows` for good once, in two ``WINDOW``s of joins running,
+        more than ``switch`` r lists a join had to be rebuilt or rows read
+        in full (the sign of a matrix far from tree-like: on tree-like ones
+        this comes in short bursts); 0 uses row bounds throughout, inf never
+        (speed only, not the result).
 
     Returns
     -------
@@ -230,11 +246,20 @@ def nj_kernel(D, bionj, K, G):
     rmax = np.full(G, -np.inf)
     live = np.arange(n)                       # live rows, ascending
     r = n
+    rows = switch <= 0.0                      # search by row bounds (then D is kept symmetric)
+    rec = np.full((n, 5), -1.0)               # row records of nj_rows (C0 = -1: never read)
+    scale = np.zeros(1)
+    delta = 0.0                               # sum of the least fall of R at each join
+    mark_t = 0
+    mark_w = 0
+    hot = 0
     for s in range(n):
-        cnt[:] = size
-        cnt[lab[s]] -= 1
-        fill_row(D, s, live, r, node, lab, L, cnt, thr)
+        if not rows:
+            cnt[:] = size
+            cnt[lab[s]] -= 1
+            fill_row(D, s, live, r, node, lab, L, cnt, thr)
         rmax[lab[s]] = max(rmax[lab[s]], R[s])
+        scale[0] = max(scale[0], abs(R[s]))
     t = 0
     while r > 3:
         if r == 4:
@@ -251,8 +276,22 @@ def nj_kernel(D, bionj, K, G):
                 q = 2.0 * dist(D, born, i, k) - (R[i] + R[k])
                 if q < bq:
                     bq, j = q, k
+        elif rows:
+            i, j, _ = row_search(D, live, r, R, rec, scale, delta, rowlb, cand)
         else:
             i, j = _search(D, born, live, r, node, slot, lab, R, L, rmax, rowlb, cand, slow)
+            if t - mark_t >= WINDOW:
+                # tree-like matrices have short bursts of such work, far
+                # from tree-like ones keep at it
+                hot = hot + 1 if L.work[0] - mark_w > switch * r * (t - mark_t) else 0
+                if hot == 2:
+                    # every row gets all its distances (this join writes the
+                    # new column too) and is read in full at the next search
+                    rows = True
+                    mirror_rows(D, born, live, r)
+                    for b in range(r):
+                        scale[0] = max(scale[0], abs(R[live[b]]))
+                mark_t, mark_w = t, L.work[0]
         c = float(r - 2)
         dij = dist(D, born, i, j)
         li = 0.5 * dij + (R[i] - R[j]) / (2.0 * c)
@@ -275,6 +314,8 @@ def nj_kernel(D, bionj, K, G):
         ru = 0.0
         svu = 0.0
         below = 0
+        fall = np.inf
+        top = abs(delta)
         # Row i's new lists and next round's class maxima of R are built in
         # the same pass as the reduction, while the row is in cache.
         begin_row(L, i, thr)
@@ -314,13 +355,17 @@ def nj_kernel(D, bionj, K, G):
             else:
                 dku = 0.5 * (dik + djk - dij)
             rk = R[k] + (dku - dik - djk)
+            g = lab[k]
+            if rows:
+                fall = min(fall, R[k] - rk)
+                top = max(top, abs(rk))
+                D[k, i] = dku
+            elif dku < thr[g]:
+                insert(Lvi, Lxi, g, dku, node[k], thr)
             R[k] = rk
             ru += dku
             di[k] = dku
-            g = lab[k]
             rmax[g] = max(rmax[g], rk)
-            if dku < thr[g]:
-                insert(Lvi, Lxi, g, dku, node[k], thr)
         R[i] = ru
         SV[i] = svu
         slot[node[i]] = -1
@@ -341,7 +386,12 @@ def nj_kernel(D, bionj, K, G):
         lab[i] = min(G - 1, below * G // max(1, r - 1))
         rmax[lab[i]] = max(rmax[lab[i]], ru)
         size[lab[i]] += 1
-        end_row(L, i, cnt)
+        if rows:
+            delta += fall
+            rec[i, C0] = -1.0
+            scale[0] = max(scale[0], top, abs(ru), abs(delta))
+        else:
+            end_row(L, i, cnt)
     # The last three clusters meet at the root.
     a, b, e = live[0], live[1], live[2]
     root = n + t

@@ -37,8 +37,9 @@ START, LEN, FULL, NODE = 0, 1, 2, 3   # fields of a list record; node ids from N
 #: float64 and ``records`` (n, G, NODE + K) int32 hold the lists;
 #: ``head``, ``hnode`` and ``after`` (n, G) cache the first unread entry of
 #: each list, its node and the bound behind it; ``hmin`` (n,) the least head
-#: of each row.
-RowLists = namedtuple("RowLists", ["values", "records", "head", "hmin", "hnode", "after"])
+#: of each row; ``work`` (1,) counts the lists rebuilt and rows read in full.
+RowLists = namedtuple("RowLists", ["values", "records", "head", "hmin", "hnode", "after",
+                                   "work"])
 
 
 @nb.njit(cache=True)
@@ -46,7 +47,7 @@ def new_lists(n, G, K):
     """Empty lists for n rows, G classes and K entries (see module doc)."""
     return RowLists(np.empty((n, G, K), np.float64), np.zeros((n, G, NODE + K), np.int32),
                     np.full((n, G), np.inf), np.full(n, np.inf), np.full((n, G), -1, np.int32),
-                    np.full((n, G), np.inf))
+                    np.full((n, G), np.inf), np.zeros(1, np.int64))
 
 
 @nb.njit(cache=True, inline="always")
@@ -209,6 +210,7 @@ def read_list(D, born, s, g, c, sr, best, live, r, node, slot, lab, R, L):
             p += 1
         if Lx[s, g, FULL] or (m > 0 and c * Lv[s, g, m - 1] - sr > bq):
             return bq, bi, bj, False
+        L.work[0] += 1
         if not refilled:
             fill_class(D, born, s, g, live, r, node, lab, L)
             refilled = True

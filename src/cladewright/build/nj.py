@@ -19,13 +19,14 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from .linkage import working_dtype
-from .._kernels.nj import LIST_LENGTH, N_CLASSES, nj_kernel
+from .._kernels.nj import LIST_LENGTH, N_CLASSES, ROW_SWITCH, nj_kernel
 
 __all__ = ["nj_arrays"]
 
 
 def nj_arrays(values: ArrayLike, bionj: bool = False, list_length: int = LIST_LENGTH,
-              n_classes: int = N_CLASSES, overwrite: bool = False) -> tuple[NDArray[np.int64], NDArray[np.float64]]:
+              n_classes: int = N_CLASSES, overwrite: bool = False, row_switch: float = ROW_SWITCH
+              ) -> tuple[NDArray[np.int64], NDArray[np.float64]]:
     """Neighbour joining (or BIONJ) on a distance matrix.
 
     Parameters
@@ -43,6 +44,11 @@ def nj_arrays(values: ArrayLike, bionj: bool = False, list_length: int = LIST_LE
         Use ``values`` itself as the work space when it is a C-ordered float64
         or float32 array (its contents are then lost): no copy, for callers
         that filled the matrix for this purpose.
+    row_switch : float
+        Lists rebuilt or rows read in full per join, as a fraction of the
+        clusters left (over 64 joins), past which the search keeps a lower
+        bound per row instead, for matrices far from tree-like; 0 from the
+        start, inf never (speed only).
 
     Returns
     -------
@@ -77,4 +83,4 @@ def nj_arrays(values: ArrayLike, bionj: bool = False, list_length: int = LIST_LE
     own = overwrite and isinstance(values, np.ndarray) and values.flags.c_contiguous and values.flags.writeable \
         and values.dtype in (np.float32, np.float64)
     D = values if own else np.array(values, dtype=working_dtype(values), order="C", copy=True)
-    return nj_kernel(D, bool(bionj), int(list_length), int(n_classes))
+    return nj_kernel(D, bool(bionj), int(list_length), int(n_classes), float(row_switch))
