@@ -160,7 +160,7 @@ def fit_from_rows(tree: Tree, rows: Callable[[int, int], NDArray[np.floating]], 
         sums = np.zeros(8)
         for r0 in range(0, n, block):
             r1 = min(n, r0 + block)
-            d = np.ascontiguousarray(rows(r0, r1), dtype=np.float64)
+            d = np.ascontiguousarray(rows(r0, r1))  # float32 rows are widened in the sums, exactly
             fit_sums(d, patristic_rows(parent, depth, seq, lo, hi, r0, r1), r0, sums, mx, my)
         return sums
 
