@@ -464,8 +464,9 @@ def plot(results, path):
 
 
 #: Sections of docs/benchmarks.md made by the other benchmark scripts (bench/bench_minimum_evolution.py,
-#: bench/bench_likelihood.py): carried over as they stand when this suite rewrites the page.
-KEPT_SECTIONS = ("## Minimum evolution", "## Model-based distances")
+#: bench/bench_likelihood.py, bench/bench_scale.py with bench/bench_nj_hard.py): carried over as they stand
+#: when this suite rewrites the page.
+KEPT_SECTIONS = ("## Minimum evolution", "## Model-based distances", "## Past one machine")
 
 
 def kept_sections(page: Path) -> str:

@@ -155,6 +155,26 @@ def test_local_cluster_on_loopback(tmp_path):
         assert r.exit_code == 0, r.output
     assert open_store(tmp_path / "m.zarr").values.tobytes() == ref.values.tobytes()
     assert open_store(tmp_path / "c.zarr").values.tobytes() == ref.values.tobytes()
+    # the workers saw the store (one file system) and wrote their tiles; the finished store's attributes are
+    # those of a local run, the run's token gone
+    tiled_distances(aln, tmp_path / "t.zarr", "tn93", tile=64)
+    a, b = (dict(zarr.open_group(str(tmp_path / x), mode="r").attrs) for x in ("m.zarr", "t.zarr"))
+    assert a == b and "run_token" not in a
+
+
+def test_workers_write_only_into_this_runs_store(tmp_path):
+    # common practice for shared-file-system writes: a worker writes a tile only into the store that carries
+    # this run's token; a store it sees that is not this run's (a stale copy at the same path on its own disk),
+    # or no store, gets nothing and the tile goes back to the client
+    from cladewright.io import store as st
+
+    aln = _alignment(20, 60, duplicates=False)
+    tiled_distances(aln, tmp_path / "m.zarr", "k2p", tile=16)
+    root = zarr.open_group(str(tmp_path / "m.zarr"), mode="r+")
+    token = st.start_run(root)
+    assert st.open_for_tiles(str(tmp_path / "m.zarr"), token) is not None
+    assert st.open_for_tiles(str(tmp_path / "m.zarr"), "another run") is None
+    assert st.open_for_tiles(str(tmp_path / "absent.zarr"), token) is None
 
 
 def test_lost_worker_leaves_the_store_unchanged(tmp_path):

@@ -5,7 +5,9 @@ sequences are cut into tiles of ``tile`` rows, and each tile (row tile <=
 column tile) is one task, run on local threads or on a Dask cluster. The
 encoded alignment (bit planes, or site patterns for the likelihood models) is
 made once and, on a cluster, scattered once to every worker; each task
-returns its tile and the caller writes it into the store and marks it done.
+returns its tile and the caller writes it into the store and marks it done
+(on a cluster, a worker that sees the store, on a shared file system, writes
+the tile itself and returns only its facts: see :func:`tile_task`).
 A run that stops is continued with ``resume=True``: only the tiles not marked
 done are computed, and the store ends with the same bytes as an
 uninterrupted run.
@@ -49,7 +51,7 @@ from . import MAX_LISTED, MODELS, ZERO_WHEN_IDENTICAL, check_settings
 from . import likelihood as lik
 from .counts import count_dict, pack, state_frequencies
 
-__all__ = ["tiled_distances", "TileJob", "compute_tile"]
+__all__ = ["tiled_distances", "TileJob", "compute_tile", "tile_task"]
 
 #: The settings a resumed run must share with the run that made the store.
 RESUME_KEYS = ("input_sha256", "model", "gamma", "gaps", "freqs", "gamma_categories", "dtype", "tile", "n_rows")
@@ -236,14 +238,16 @@ def tiled_distances(alignment: Alignment, path: str | os.PathLike[str], model: s
             st.create_store(out, job.n, int(tile), np.dtype(dtype), np.asarray(group, np.int64), attrs))
     todo = st.missing_tiles(root)
     n_pairs = sum(_pairs_in(job, ti, tj) for ti, tj in todo)
+    where = (os.path.abspath(out), st.start_run(root)) if scheduler is not None else None
     with Progress("distances", n_pairs, enabled=progress) as bar:
-        for ti, tj, block, empty in _run(job, todo, scheduler, workers):
+        for ti, tj, block, empty, facts in _run(job, todo, scheduler, workers, where):
             if empty is not None:
                 i, j = (distinct.names[k] for k in empty)
                 raise InputError(f"sequences {i!r} and {j!r} share no unambiguous site, so their distance is "
                                  "undefined; remove one of them or trim the alignment", source=src)
-            st.write_tile(root, job.tile, ti, tj, block)
-            st.mark_done(root, ti, tj, *_tile_saturation(block, ti == tj))
+            if block is not None:  # not written by the worker that computed it
+                st.write_tile(root, job.tile, ti, tj, block)
+            st.mark_done(root, ti, tj, *facts)
             bar.advance(_pairs_in(job, ti, tj))
             if on_tile is not None:
                 on_tile(ti, tj)
@@ -302,20 +306,38 @@ def _make_job(aln: Alignment, name: str, gamma: float | None, gaps: str, freqs: 
     return job, int(packed.n_sites), {}
 
 
-def _run(job: TileJob, todo: list[tuple[int, int]], scheduler: Any,
-         workers: int | None) -> Iterator[tuple[int, int, NDArray[np.floating], Optional[tuple[int, int]]]]:
+#: A tile's result: its place, its block (None once written to the store by the worker that computed
+#: it), the first pair sharing no site (or None) and its saturation facts (undefined count, largest).
+TileResult = tuple[int, int, Optional[NDArray[np.floating]], Optional[tuple[int, int]], tuple[int, float]]
+
+
+def tile_task(job: TileJob, ti: int, tj: int, where: Optional[tuple[str, str]] = None) -> TileResult:
+    """One tile and its saturation facts. With ``where`` (the store's path and the run's token) a worker
+    that sees the store writes the tile itself and sends back only the facts: on a cluster the tiles
+    then go from the workers to a shared file system in parallel instead of all through the client."""
+    ti, tj, block, empty = compute_tile(job, ti, tj)
+    facts = _tile_saturation(block, ti == tj)
+    root = st.open_for_tiles(*where) if where is not None and empty is None else None
+    if root is None:
+        return ti, tj, block, empty, facts
+    st.write_tile(root, job.tile, ti, tj, block)
+    return ti, tj, None, empty, facts
+
+
+def _run(job: TileJob, todo: list[tuple[int, int]], scheduler: Any, workers: int | None,
+         where: Optional[tuple[str, str]]) -> Iterator[TileResult]:
     """The tiles' results as they arrive (local threads, or Dask tasks on one scattered job)."""
     if scheduler is not None:
-        yield from _dask_tiles(job, todo, scheduler)
+        yield from _dask_tiles(job, todo, scheduler, where)
         return
     threads = workers or os.cpu_count() or 1
     with ThreadPoolExecutor(max_workers=threads) as pool:
         queue = iter(todo)
-        pending = {pool.submit(compute_tile, job, ti, tj) for ti, tj in islice(queue, 2 * threads)}
+        pending = {pool.submit(tile_task, job, ti, tj) for ti, tj in islice(queue, 2 * threads)}
         try:
             while pending:
                 done, pending = wait(pending, return_when=FIRST_COMPLETED)
-                pending |= {pool.submit(compute_tile, job, ti, tj) for ti, tj in islice(queue, len(done))}
+                pending |= {pool.submit(tile_task, job, ti, tj) for ti, tj in islice(queue, len(done))}
                 for fut in done:
                     yield fut.result()
         finally:
@@ -323,8 +345,8 @@ def _run(job: TileJob, todo: list[tuple[int, int]], scheduler: Any,
                 fut.cancel()
 
 
-def _dask_tiles(job: TileJob, todo: list[tuple[int, int]],
-                scheduler: Any) -> Iterator[tuple[int, int, NDArray[np.floating], Optional[tuple[int, int]]]]:
+def _dask_tiles(job: TileJob, todo: list[tuple[int, int]], scheduler: Any,
+                where: Optional[tuple[str, str]]) -> Iterator[TileResult]:
     try:
         from dask.distributed import Client, as_completed
     except ImportError:
@@ -333,7 +355,7 @@ def _dask_tiles(job: TileJob, todo: list[tuple[int, int]],
     try:
         job_future = client.scatter(job, broadcast=True)
         # pure=False and retries: a tile lost with a worker is computed again elsewhere
-        futures = [client.submit(compute_tile, job_future, ti, tj, pure=False, retries=3) for ti, tj in todo]
+        futures = [client.submit(tile_task, job_future, ti, tj, where, pure=False, retries=3) for ti, tj in todo]
         for fut in as_completed(futures):
             yield fut.result()
             fut.release()

@@ -33,7 +33,8 @@ from numpy.typing import NDArray
 from ..errors import InputError
 
 __all__ = ["STORE_KIND", "is_store", "create_store", "open_for_resume", "write_tile", "mark_done", "missing_tiles",
-           "finish_store", "store_attributes", "read_store_rows", "tile_facts", "matrix_info"]
+           "finish_store", "store_attributes", "read_store_rows", "tile_facts", "matrix_info",
+           "start_run", "open_for_tiles"]
 
 #: The attribute that marks a directory as a cladewright distance store.
 STORE_KIND = "cladewright distance matrix, tiled"
@@ -138,9 +139,32 @@ def tile_facts(root: Any) -> tuple[NDArray[np.int64], NDArray[np.float64]]:
     return np.asarray(root["tile_undefined"][:]), np.asarray(root["tile_largest"][:])
 
 
+def start_run(root: Any) -> str:
+    """Mark the store with a token of this run (random), by which a worker process tells that the store
+    it sees at the store's path is this very store (:func:`open_for_tiles`); returns the token."""
+    import secrets
+
+    token = secrets.token_hex(16)
+    root.attrs.update(run_token=token)
+    return token
+
+
+def open_for_tiles(path: str, token: str) -> Any | None:
+    """The store at ``path`` for a worker to write its own tiles into, when it is this run's store (the
+    token of :func:`start_run`); None when this process does not see it (no shared file system, another
+    store at the same path, no Zarr): the worker then sends its tiles back instead."""
+    try:
+        root = _zarr().open_group(path, mode="r+")
+        return root if root.attrs.get("run_token") == token else None
+    except (InputError, OSError, KeyError, ValueError, FileNotFoundError):
+        return None
+
+
 def finish_store(root: Any, facts: Mapping[str, Any]) -> None:
-    """Record the run's facts and that every tile is done."""
-    root.attrs.update(dict(facts, complete=True))
+    """Record the run's facts and that every tile is done (the run's token goes: a finished store's
+    attributes are the same whoever computed its tiles)."""
+    attrs = {k: v for k, v in dict(root.attrs).items() if k != "run_token"}
+    root.attrs.put(dict(attrs, **facts, complete=True))
 
 
 def store_attributes(path: str | os.PathLike[str]) -> tuple[dict[str, Any], NDArray[np.int64], tuple[int, int]]:
