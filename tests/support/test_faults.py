@@ -30,7 +30,9 @@ def _wait_for_lines(path, count, timeout=120):
 
 
 def test_ctrl_c_leaves_files_consistent_and_resumable(tmp_path):
-    args = ["tree", str(EXAMPLE), "--replicates", "300", "--seed", "31", "--workers", "2"]
+    # 1,000 replicates (about 1.3 s here): the run must still be going when the signal comes after 10 lines;
+    # with 300 a fast machine could finish first, and the test then saw exit code 0
+    args = ["tree", str(EXAMPLE), "--replicates", "1000", "--seed", "31", "--workers", "2"]
     whole, whole_reps = tmp_path / "whole.nwk", tmp_path / "whole_reps.nwk"
     r = CliRunner().invoke(main, ["--quiet"] + args + ["-o", str(whole), "--save-replicates", str(whole_reps)])
     assert r.exit_code == 0, r.output
