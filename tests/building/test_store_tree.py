@@ -13,6 +13,7 @@ import tracemalloc
 
 import numpy as np
 import pytest
+import zarr  # noqa: F401  (part of the test extra: a missing or broken zarr must fail the suite, not skip it)
 from click.testing import CliRunner
 
 from cladewright import tree_from_alignment, tree_from_store
@@ -21,7 +22,6 @@ from cladewright.cli import main
 from cladewright.distances.tiled import tiled_distances
 from cladewright.io.readers import open_store
 
-zarr = pytest.importorskip("zarr", reason="zarr is part of the test extra")
 
 METHODS = ("nj", "bionj", "upgma", "wpgma", "single", "complete", "bme")
 

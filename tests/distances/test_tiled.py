@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+import zarr  # part of the test extra: a missing or broken zarr must fail the suite, not skip it
 from click.testing import CliRunner
 
 from cladewright.alignment import Alignment, encode
@@ -18,7 +19,6 @@ from cladewright.distances.tiled import tiled_distances
 from cladewright.errors import InputError, SaturationError
 from cladewright.io.readers import open_store
 
-zarr = pytest.importorskip("zarr", reason="zarr is part of the test extra")
 
 
 def _alignment(n, length, alphabet="dna", seed=1, duplicates=True, spread=(0.05, 0.4)):
