@@ -23,7 +23,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 from numpy.typing import NDArray
 
-from .build import build_tree_with_info
+from .build import build_tree_with_info, zero_negative
 from .build.fit import fit_from_rows
 from .build.linkage import linkage_condensed
 from .build.nj import nj_arrays
@@ -133,10 +133,7 @@ def _streamed(names: tuple[str, ...], rows: Any, m: int, tile: int, method: str,
         parent, length = nj_arrays(D, bionj=method == "bionj", overwrite=True)
         del D
         rooted = False
-    neg = length < 0
-    n_neg = int(np.count_nonzero(neg))
-    if negative == "zero" and n_neg:
-        length[neg] = 0.0
+    n_neg = zero_negative(length, negative)
     tree = Tree(parent, length, names, rooted=rooted)
     fit_name, fit_value = fit_from_rows(tree, rows, tile, method)
     return tree, {"method": method, "negative_branches": n_neg, "fit_name": fit_name,

@@ -16,7 +16,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
-from numpy.typing import ArrayLike
+from numpy.typing import ArrayLike, NDArray
 
 from ..choices import METHODS, NEGATIVE_RULES as NEGATIVE
 from ..errors import InputError
@@ -33,7 +33,7 @@ if TYPE_CHECKING:
     from ..tree import Tree
 
 __all__ = ["METHODS", "LINKAGE_METHODS", "build_tree", "build_tree_with_info", "fit_statistic",
-           "linkage_arrays", "nj_arrays", "insertion_arrays", "refine_tree", "refine_tree_with_info"]
+           "linkage_arrays", "nj_arrays", "zero_negative", "insertion_arrays", "refine_tree", "refine_tree_with_info"]
 
 # METHODS (every method name build_tree accepts) and NEGATIVE (the negative-length rules) are
 # cladewright.choices' vocabularies, named here as the package has always named them.
@@ -144,10 +144,7 @@ def build_tree_with_info(dm: DistanceMatrix, method: str = "nj", negative: str =
         parent, length = np.array(found.parent), np.array(found.length)
         search = {key: search[key] for key in ("refine", "criterion", "length_before", "length_after", "moves")}
     assert length is not None
-    neg = length < 0
-    n_neg = int(np.count_nonzero(neg))
-    if negative == "zero" and n_neg:
-        length[neg] = 0.0
+    n_neg = zero_negative(length, negative)
     tree = Tree(parent, length, names, rooted=rooted)
     fit_name = fit_value = None
     if fit:
@@ -158,6 +155,15 @@ def build_tree_with_info(dm: DistanceMatrix, method: str = "nj", negative: str =
             fit_value = None
     info = {"method": m, "negative_branches": n_neg, "fit_name": fit_name, "fit_value": fit_value, **search}
     return tree, info
+
+
+def zero_negative(length: NDArray[np.float64], negative: str) -> int:
+    """How many branch lengths are negative; with ``negative="zero"`` they are set to 0 in place."""
+    neg = length < 0
+    n_neg = int(np.count_nonzero(neg))
+    if negative == "zero" and n_neg:
+        length[neg] = 0.0
+    return n_neg
 
 
 def build_tree(dm: DistanceMatrix, method: str = "nj", negative: str = "zero", *, source: str | None = None,
